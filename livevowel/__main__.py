@@ -1,0 +1,7 @@
+"""``python -m livevowel`` runs the command line."""
+
+import sys
+
+from livevowel.cli import main
+
+sys.exit(main())

@@ -1,0 +1,87 @@
+"""The ``livevowel`` command line: a thin shell over the library.
+
+Each command lives in its own module under :mod:`livevowel.cli` and exposes
+
+* ``NAME`` -- the command word,
+* ``SUMMARY`` -- one line for ``livevowel --help``,
+* ``configure(parser)`` -- adds its options (keep imports here light),
+* ``run(args) -> int`` -- does the work; heavy imports go inside.
+
+Errors meant for the user are :class:`~livevowel.errors.UserError`; they are
+printed as one line, without a traceback, and set the exit status.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from typing import Sequence
+
+from livevowel import __version__
+from livevowel.errors import UserError
+
+#: Command modules in the order ``--help`` lists them.
+COMMAND_MODULES: tuple[str, ...] = (
+    "config_cmd",
+    "bench",
+)
+
+DESCRIPTION = """\
+livevowel measures vowel formants (F1, F2, F3) from a microphone or a
+recording and shows where each vowel lands against target regions.
+
+It is a practice and feedback tool, not a diagnostic or medical device."""
+
+EPILOG = """\
+Run 'livevowel COMMAND --help' for the options of one command.
+Settings come from config.yaml defaults, your own config file, then options."""
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The full argument parser, with every command's sub-parser."""
+    parser = argparse.ArgumentParser(
+        prog="livevowel",
+        description=DESCRIPTION,
+        epilog=EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("--version", action="version", version=f"livevowel {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", title="commands")
+    for modname in COMMAND_MODULES:
+        mod = importlib.import_module(f"livevowel.cli.{modname}")
+        p = sub.add_parser(
+            mod.NAME,
+            help=mod.SUMMARY,
+            description=getattr(mod, "DESCRIPTION", mod.SUMMARY),
+            epilog=getattr(mod, "EPILOG", None),
+            formatter_class=argparse.RawDescriptionHelpFormatter,
+        )
+        mod.configure(p)
+        p.set_defaults(_run=mod.run)
+    return parser
+
+
+def add_config_option(parser: argparse.ArgumentParser) -> None:
+    """Add the shared ``--config FILE`` option to a command's parser."""
+    parser.add_argument("--config", metavar="FILE",
+                        help="read settings from FILE (default: your user config.yaml if present)")
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the ``livevowel`` console script; returns the exit status."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "command", None):
+        parser.print_help()
+        return 2
+    try:
+        return int(args._run(args) or 0)
+    except UserError as exc:
+        print(f"livevowel {args.command}: error: {exc}", file=sys.stderr)
+        return exc.exit_code
+    except KeyboardInterrupt:
+        print(f"livevowel {args.command}: stopped", file=sys.stderr)
+        return 130
+    except BrokenPipeError:  # e.g. `livevowel ... | head`
+        return 0

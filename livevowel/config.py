@@ -1,0 +1,217 @@
+"""Settings: one schema, one commented default file, user overrides.
+
+Precedence, lowest first: the defaults in :data:`SCHEMA` (the same values the
+top-level ``config.yaml`` lists, with comments), then the user's own config
+file (``--config FILE``, or ``config.yaml`` in the user config folder when it
+exists), then command-line options.
+
+``config.yaml`` is generated from :data:`SCHEMA` (``livevowel config
+--template``) and a test checks that the two agree, so the file always lists
+every default.
+
+Unknown keys, wrong types and out-of-range values raise
+:class:`~livevowel.errors.UserError` naming the file and the dotted key.
+"""
+
+from __future__ import annotations
+
+import copy
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Mapping
+
+import yaml
+
+from livevowel.errors import UserError
+
+
+@dataclass(frozen=True)
+class Key:
+    """One setting: default, type, allowed range or choices, and a comment."""
+
+    default: Any
+    help: str
+    kind: type = float
+    min: float | None = None
+    max: float | None = None
+    choices: tuple[str, ...] | None = None
+    nullable: bool = False
+
+    def check(self, value: Any, where: str) -> Any:
+        """Return ``value`` converted to this key's type, or raise UserError."""
+        if value is None:
+            if self.nullable:
+                return None
+            raise UserError(f"{where}: a value is required (default {self.default!r})")
+        if self.kind is bool:
+            if not isinstance(value, bool):
+                raise UserError(f"{where}: expected true or false, got {value!r}")
+            return value
+        if self.kind in (int, float):
+            if isinstance(value, bool) or not isinstance(value, (int, float)):
+                raise UserError(f"{where}: expected a number, got {value!r}")
+            if self.kind is int and float(value) != int(value):
+                raise UserError(f"{where}: expected a whole number, got {value!r}")
+            value = self.kind(value)
+            if self.min is not None and value < self.min:
+                raise UserError(f"{where}: {value} is below the minimum {self.min}")
+            if self.max is not None and value > self.max:
+                raise UserError(f"{where}: {value} is above the maximum {self.max}")
+            return value
+        if self.kind is str:
+            if not isinstance(value, str):
+                raise UserError(f"{where}: expected text, got {value!r}")
+            if self.choices is not None and value not in self.choices:
+                raise UserError(f"{where}: {value!r} is not one of {', '.join(self.choices)}")
+            return value
+        raise TypeError(f"unsupported kind {self.kind}")  # pragma: no cover - schema bug
+
+
+#: Every setting livevowel has, by section. Sections are owned by layers:
+#: ``analysis`` by the DSP engine, ``live`` by the audio path, and so on.
+SCHEMA: dict[str, dict[str, Key]] = {
+    "analysis": {
+        "voice": Key("auto", "speaker group: adult_male, adult_female, child or auto (decide from the voice)",
+                     kind=str, choices=("adult_male", "adult_female", "child", "auto")),
+        "ceiling_hz": Key(None, "formant ceiling in Hz; null follows the voice setting",
+                          min=3000, max=9000, nullable=True),
+        "window_ms": Key(25.0, "analysis window length in milliseconds", min=5, max=100),
+        "hop_ms": Key(10.0, "hop between frames in milliseconds", min=1, max=50),
+        "pre_emphasis_hz": Key(50.0, "pre-emphasis corner frequency in Hz (0 turns it off)", min=0, max=1000),
+        "f0_min_hz": Key(60.0, "lowest F0 searched, Hz", min=30, max=400),
+        "f0_max_hz": Key(700.0, "highest F0 searched, Hz", min=100, max=1500),
+    },
+}
+
+
+def defaults() -> dict[str, dict[str, Any]]:
+    """The default settings as a nested dict (a fresh copy)."""
+    return {sec: {k: copy.deepcopy(key.default) for k, key in keys.items()} for sec, keys in SCHEMA.items()}
+
+
+def validate(data: Any, *, source: str) -> dict[str, dict[str, Any]]:
+    """Check a (possibly partial) settings mapping against :data:`SCHEMA`.
+
+    Parameters
+    ----------
+    data : mapping
+        ``{section: {key: value}}``; missing sections and keys are allowed.
+    source : str
+        Where the data came from (a file path, ``"command line"``), used in messages.
+
+    Returns
+    -------
+    dict
+        The same data with values converted to their declared types.
+    """
+    if data is None:
+        return {}
+    if not isinstance(data, Mapping):
+        raise UserError(f"{source}: expected sections such as 'analysis:' at the top level")
+    out: dict[str, dict[str, Any]] = {}
+    for sec, values in data.items():
+        if sec not in SCHEMA:
+            raise UserError(f"{source}: unknown section {sec!r} (known: {', '.join(SCHEMA)})")
+        if values is None:
+            continue
+        if not isinstance(values, Mapping):
+            raise UserError(f"{source}: section {sec!r} must hold key: value lines")
+        out[sec] = {}
+        for k, v in values.items():
+            if k not in SCHEMA[sec]:
+                raise UserError(f"{source}: unknown key {sec}.{k} (known: {', '.join(SCHEMA[sec])})")
+            out[sec][k] = SCHEMA[sec][k].check(v, f"{source}: {sec}.{k}")
+    return out
+
+
+def merge(base: dict[str, dict[str, Any]], over: Mapping[str, Mapping[str, Any]]) -> dict[str, dict[str, Any]]:
+    """Return ``base`` with the values of ``over`` laid on top (no mutation)."""
+    out = copy.deepcopy(base)
+    for sec, values in over.items():
+        out.setdefault(sec, {}).update(values)
+    return out
+
+
+def user_config_path() -> Path:
+    """Where a user's own ``config.yaml`` lives (it need not exist)."""
+    env = os.environ.get("LIVEVOWEL_CONFIG")
+    if env:
+        return Path(env)
+    from platformdirs import user_config_dir
+
+    return Path(user_config_dir("livevowel")) / "config.yaml"
+
+
+def load_file(path: Path) -> dict[str, dict[str, Any]]:
+    """Read and validate a YAML config file."""
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except OSError as exc:
+        raise UserError(f"{path}: cannot read config file ({exc.strerror}); check the path") from None
+    try:
+        data = yaml.safe_load(text)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        line = f" line {mark.line + 1}" if mark is not None else ""
+        raise UserError(f"{path}:{line} is not valid YAML; fix the file or remove it") from None
+    return validate(data, source=str(path))
+
+
+@dataclass
+class Settings:
+    """The effective settings of one run, with ``settings['analysis']['hop_ms']`` access."""
+
+    values: dict[str, dict[str, Any]] = field(default_factory=defaults)
+
+    def __getitem__(self, section: str) -> dict[str, Any]:
+        return self.values[section]
+
+    def get(self, dotted: str) -> Any:
+        """Value of ``"section.key"``."""
+        sec, key = dotted.split(".", 1)
+        return self.values[sec][key]
+
+
+def load(*, config_file: str | os.PathLike | None = None,
+         overrides: Mapping[str, Mapping[str, Any]] | None = None) -> Settings:
+    """Build the effective settings.
+
+    Parameters
+    ----------
+    config_file : path, optional
+        A user config file given on the command line. When ``None``, the file
+        at :func:`user_config_path` is used if it exists.
+    overrides : mapping, optional
+        ``{section: {key: value}}`` from command-line options; ``None`` values
+        are ignored (option not given).
+    """
+    values = defaults()
+    path = Path(config_file) if config_file is not None else user_config_path()
+    if config_file is not None or path.exists():
+        values = merge(values, load_file(path))
+    if overrides:
+        given = {sec: {k: v for k, v in kv.items() if v is not None} for sec, kv in overrides.items()}
+        values = merge(values, validate(given, source="command line"))
+    for sec, keys in values.items():  # cross-key checks
+        if sec == "analysis" and keys["f0_min_hz"] >= keys["f0_max_hz"]:
+            raise UserError("analysis.f0_min_hz must be below analysis.f0_max_hz")
+    return Settings(values)
+
+
+def template() -> str:
+    """The commented default config file (what ``config.yaml`` holds)."""
+    lines = [
+        "# livevowel settings: every default, with what it does.",
+        "# Copy this file to your user config folder (see `livevowel config --path`)",
+        "# or pass it with --config FILE, and keep only the keys you change.",
+        "# Command-line options override both.",
+        "",
+    ]
+    for sec, keys in SCHEMA.items():
+        lines.append(f"{sec}:")
+        for k, key in keys.items():
+            lines.append(f"  # {key.help}")
+            lines.append(f"  {k}: {yaml.safe_dump(key.default, default_flow_style=True).strip().removesuffix('...').strip()}")
+        lines.append("")
+    return "\n".join(lines)

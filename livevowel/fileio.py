@@ -1,0 +1,56 @@
+"""Files written so that a crash never leaves half a file behind.
+
+Everything is written to a temporary file in the destination folder and then
+renamed over the target (``os.replace`` is atomic on POSIX and Windows).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import tempfile
+from pathlib import Path
+from typing import IO, Iterator
+
+from livevowel.errors import UserError
+
+
+@contextlib.contextmanager
+def atomic_writer(path: "str | os.PathLike", *, mode: str = "w", encoding: str | None = "utf-8",
+                  newline: str | None = None) -> Iterator[IO]:
+    """Open a temporary file beside ``path``; rename it into place on success.
+
+    On any exception the temporary file is removed and ``path`` is untouched.
+    """
+    path = Path(path)
+    folder = path.parent if str(path.parent) else Path(".")
+    if not folder.is_dir():
+        raise UserError(f"{path}: folder {folder} does not exist; create it first")
+    if "b" in mode:
+        encoding = None
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
+    except OSError as exc:
+        raise UserError(f"{path}: cannot write here ({exc.strerror}); choose another folder") from None
+    try:
+        with os.fdopen(fd, mode, encoding=encoding, newline=newline) as fh:
+            yield fh
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
+
+
+def write_text_atomic(path: "str | os.PathLike", text: str) -> None:
+    """Write ``text`` to ``path`` atomically (UTF-8)."""
+    with atomic_writer(path) as fh:
+        fh.write(text)
+
+
+def write_bytes_atomic(path: "str | os.PathLike", data: bytes) -> None:
+    """Write ``data`` to ``path`` atomically."""
+    with atomic_writer(path, mode="wb") as fh:
+        fh.write(data)
