@@ -1,0 +1,335 @@
+"""Frame-level F0 (YIN), frame level in dB and a voicing gate with hysteresis.
+
+All estimators take a batch of frames ``(n_frames, N)`` (samples in
+full-scale units, 1.0 = digital full scale) and are vectorised over frames.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = [
+    "yin",
+    "yin_frame_length",
+    "difference_function",
+    "cmnd",
+    "frame_level_db",
+    "LEVEL_FLOOR_DB",
+    "voicing_hysteresis",
+    "VoicingGate",
+]
+
+#: Lowest level :func:`frame_level_db` reports, dB re full scale 1.0.
+LEVEL_FLOOR_DB = -120.0
+
+
+def _frames_2d(frames, name: str = "frames") -> np.ndarray:
+    x = np.asarray(frames)
+    if x.dtype.kind not in "fiu":
+        raise ValueError(f"{name} must be a real numeric array, got dtype {x.dtype}")
+    x = x.astype(np.float64, copy=False)
+    if x.ndim == 1:
+        x = x[np.newaxis, :]
+    if x.ndim != 2:
+        raise ValueError(f"{name} must have shape (n_frames, N), got {x.shape}")
+    if not np.all(np.isfinite(x)):
+        raise ValueError(f"{name} contains NaN or infinite samples")
+    return x
+
+
+def frame_level_db(frames) -> np.ndarray:
+    """RMS level of each frame in dB relative to full scale 1.0.
+
+    ``10 log10(mean(x^2))``, floored at :data:`LEVEL_FLOOR_DB` (-120 dB). A
+    full-scale sine reads -3.01 dB, a full-scale square wave 0 dB.
+
+    Parameters
+    ----------
+    frames : array (n_frames, N) or (N,)
+
+    Returns
+    -------
+    level_db : array (n_frames,)
+    """
+    x = _frames_2d(frames)
+    if x.shape[1] == 0:
+        raise ValueError("frames must have at least one sample")
+    ms = np.mean(x * x, axis=1)
+    with np.errstate(divide="ignore"):
+        db = 10.0 * np.log10(ms)
+    return np.maximum(db, LEVEL_FLOOR_DB)
+
+
+# ---------------------------------------------------------------------------
+# YIN
+
+
+def _lags(rate_hz, f0_min_hz, f0_max_hz) -> tuple[float, int, int]:
+    try:
+        rate = float(rate_hz)
+        lo = float(f0_min_hz)
+        hi = float(f0_max_hz)
+    except (TypeError, ValueError):
+        raise ValueError("rate_hz, f0_min_hz and f0_max_hz must be numbers in Hz") from None
+    if not (np.isfinite(rate) and rate > 0):
+        raise ValueError(f"rate_hz must be positive, got {rate_hz!r}")
+    if not (np.isfinite(lo) and np.isfinite(hi) and 0 < lo < hi):
+        raise ValueError(f"need 0 < f0_min_hz < f0_max_hz, got {f0_min_hz!r} and {f0_max_hz!r}")
+    tau_min = max(2, int(np.floor(rate / hi)))
+    tau_max = int(np.ceil(rate / lo))
+    if tau_max <= tau_min:
+        raise ValueError(f"F0 range {lo:g}-{hi:g} Hz is too narrow for the sampling rate {rate:g} Hz")
+    if hi > rate / 4:
+        raise ValueError(f"f0_max_hz {hi:g} Hz is above a quarter of the sampling rate {rate:g} Hz")
+    return rate, tau_min, tau_max
+
+
+def yin_frame_length(*, rate_hz: float, f0_min_hz: float, f0_max_hz: float = 1000.0) -> int:
+    """Shortest frame (samples) :func:`yin` accepts for this F0 range.
+
+    YIN needs the integration window W plus the largest lag tau_max (plus one
+    lag for interpolation): ``N = W + tau_max + 1`` with ``tau_max =
+    ceil(rate / f0_min)``. livevowel requires ``W >= tau_max`` (at least one
+    period of the lowest F0, as de Cheveigné & Kawahara 2002 advise), so the
+    minimum is ``2 tau_max + 1``, i.e. a little over two periods of
+    ``f0_min_hz`` (e.g. 60 Hz at 16 kHz: 535 samples = 33.4 ms).
+    """
+    hi = min(float(f0_max_hz), float(rate_hz) / 4.0)
+    hi = max(hi, float(f0_min_hz) * 1.5)
+    _, _, tau_max = _lags(rate_hz, f0_min_hz, hi)
+    return 2 * tau_max + 1
+
+
+def difference_function(frames, *, max_lag: int, window: int | None = None) -> np.ndarray:
+    """YIN difference function ``d(tau) = sum_{j<W} (x[j] - x[j + tau])^2``.
+
+    Step 2 of de Cheveigné & Kawahara (2002), computed for all frames at once
+    as ``e(0) + e(tau) - 2 c(tau)`` with the energies from cumulative sums and
+    the cross term ``c`` from one FFT correlation.
+
+    Parameters
+    ----------
+    frames : array (n_frames, N)
+    max_lag : int
+        Largest lag in samples; ``d`` is returned for lags ``0..max_lag``.
+    window : int or None
+        Integration window W in samples; default ``N - max_lag``.
+
+    Returns
+    -------
+    d : array (n_frames, max_lag + 1), squared amplitude units (``d[:, 0] == 0``).
+    """
+    x = _frames_2d(frames)
+    n_frames, n = x.shape
+    max_lag = int(max_lag)
+    w = n - max_lag if window is None else int(window)
+    if max_lag < 1 or w < 1 or w + max_lag > n:
+        raise ValueError(f"need max_lag >= 1, W >= 1 and W + max_lag <= N; got max_lag={max_lag}, W={w}, N={n}")
+    nfft = 1 << int(np.ceil(np.log2(n + w)))
+    spec_full = np.fft.rfft(x[:, : w + max_lag], nfft, axis=1)
+    spec_head = np.fft.rfft(x[:, :w], nfft, axis=1)
+    # c[tau] = sum_j x[j] x[j + tau] for j < W
+    c = np.fft.irfft(spec_full * np.conj(spec_head), nfft, axis=1)[:, : max_lag + 1]
+    sq = np.zeros((n_frames, n + 1))
+    sq[:, 1:] = np.cumsum(x * x, axis=1)
+    tau = np.arange(max_lag + 1)
+    e0 = sq[:, w : w + 1]                       # sum_{j<W} x[j]^2
+    et = sq[:, tau + w] - sq[:, tau]            # sum_{j<W} x[j+tau]^2
+    d = e0 + et - 2.0 * c
+    d[:, 0] = 0.0
+    return np.maximum(d, 0.0)
+
+
+def cmnd(d: np.ndarray) -> np.ndarray:
+    """Cumulative mean normalised difference ``d'(tau) = d(tau) tau / sum_{j=1}^{tau} d(j)``.
+
+    Step 3 of de Cheveigné & Kawahara (2002); ``d'(0) = 1``. Where the running
+    sum is 0 (digital silence) ``d'`` is set to 1 (aperiodic).
+    """
+    d = np.asarray(d, dtype=np.float64)
+    if d.ndim != 2 or d.shape[1] < 2:
+        raise ValueError(f"d must have shape (n_frames, max_lag + 1) with max_lag >= 1, got {d.shape}")
+    cs = np.cumsum(d[:, 1:], axis=1)
+    tau = np.arange(1, d.shape[1])
+    out = np.ones_like(d)
+    ok = cs > 0
+    out[:, 1:] = np.where(ok, d[:, 1:] * tau / np.where(ok, cs, 1.0), 1.0)
+    return out
+
+
+def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 600.0,
+        threshold: float = 0.15, fallback: bool = False) -> tuple[np.ndarray, np.ndarray]:
+    """YIN fundamental-frequency estimate per frame (de Cheveigné & Kawahara 2002).
+
+    Steps 2-5 of the paper: difference function, cumulative mean normalised
+    difference (CMND), absolute threshold (the first lag in range whose CMND
+    falls below ``threshold``, then followed down to its local minimum), and
+    parabolic interpolation of the raw difference function around that lag.
+
+    Frame length: ``N >= yin_frame_length(rate_hz=..., f0_min_hz=...)``, i.e.
+    ``N = W + tau_max + 1`` with ``tau_max = ceil(rate / f0_min)`` and
+    integration window ``W = N - tau_max - 1 >= tau_max``. Frames are used
+    unwindowed.
+
+    Parameters
+    ----------
+    frames : array (n_frames, N) or (N,)
+        Samples (full-scale units).
+    rate_hz : float, keyword-only
+        Sampling rate, Hz.
+    f0_min_hz, f0_max_hz : float
+        Search range, Hz (``f0_max_hz <= rate / 4``).
+    threshold : float
+        Absolute CMND threshold (paper: 0.1-0.15; 0.15 default here).
+    fallback : bool
+        If no lag falls below ``threshold``, take the global CMND minimum in
+        range (paper step 4) instead of returning NaN.
+
+    Returns
+    -------
+    f0_hz : array (n_frames,)
+        F0 in Hz; NaN when no period was found.
+    aperiodicity : array (n_frames,)
+        CMND value at the chosen lag (0 = perfectly periodic, about 1 = noise);
+        for frames without a period, the minimum CMND over the search range.
+    """
+    x = _frames_2d(frames)
+    rate, tau_min, tau_max = _lags(rate_hz, f0_min_hz, f0_max_hz)
+    if not (0.0 < float(threshold) < 1.0):
+        raise ValueError(f"threshold must be between 0 and 1, got {threshold!r}")
+    n_frames, n = x.shape
+    need = 2 * tau_max + 1
+    if n < need:
+        raise ValueError(
+            f"YIN needs frames of at least {need} samples ({1e3 * need / rate:.1f} ms) for "
+            f"f0_min_hz={f0_min_hz:g} at {rate:g} Hz, got {n}")
+    w = n - tau_max - 1
+    d = difference_function(x, max_lag=tau_max + 1, window=w)
+    dp = cmnd(d)
+    lags = np.arange(dp.shape[1])
+    in_range = (lags >= tau_min) & (lags <= tau_max)
+    below = (dp < threshold) & in_range
+    found = np.any(below, axis=1)
+    first = np.argmax(below, axis=1)
+    # follow the dip down to its local minimum: first lag >= first with d'(t+1) >= d'(t)
+    rising = np.zeros_like(below)
+    rising[:, :-1] = dp[:, 1:] >= dp[:, :-1]
+    rising[:, tau_max] = True
+    cand = rising & (lags >= first[:, None]) & in_range
+    best = np.argmax(cand, axis=1)
+    masked = np.where(in_range, dp, np.inf)
+    gmin = np.argmin(masked, axis=1)
+    if fallback:
+        best = np.where(found, best, gmin)
+        found = np.ones_like(found)
+    rows = np.arange(n_frames)
+    aper = np.where(found, dp[rows, best], dp[rows, gmin])
+    # parabolic interpolation on the raw difference function
+    t = np.clip(best, 1, tau_max)
+    y0, y1, y2 = d[rows, t - 1], d[rows, t], d[rows, t + 1]
+    den = y0 - 2.0 * y1 + y2
+    with np.errstate(invalid="ignore", divide="ignore"):
+        shift = np.where(den > 0, 0.5 * (y0 - y2) / np.where(den > 0, den, 1.0), 0.0)
+    shift = np.clip(shift, -1.0, 1.0)
+    period = t + shift
+    silent = d[:, 1:].sum(axis=1) <= 0
+    f0 = np.where(found & ~silent, rate / period, np.nan)
+    aper = np.where(silent, 1.0, aper)
+    return f0, aper
+
+
+# ---------------------------------------------------------------------------
+# voicing decision
+
+
+def voicing_hysteresis(aperiodicity, level_db, *, on_threshold: float = 0.2, off_threshold: float = 0.3,
+                       floor_db: float = -50.0, margin_db: float = 6.0,
+                       initial: bool = False) -> tuple[np.ndarray, bool]:
+    """Voiced/unvoiced decision per frame, a two-threshold gate (hysteresis).
+
+    A frame turns the gate *on* when ``aperiodicity < on_threshold`` and
+    ``level_db > floor_db``; it turns it *off* when ``aperiodicity >
+    off_threshold`` or ``level_db < floor_db - margin_db``; any other frame
+    keeps the previous state. NaN aperiodicity counts as aperiodic (off).
+    The two thresholds keep a voice near the boundary from flickering
+    (hysteresis, a Schmitt trigger; common practice).
+
+    Streaming: pass the returned state as ``initial`` of the next call; the
+    decisions over any split of the input equal those of one call.
+    Vectorised (the state is a forward fill of the last on/off event).
+
+    Parameters
+    ----------
+    aperiodicity : array (n,)
+        YIN CMND minimum per frame (0 periodic .. ~1 noise).
+    level_db : array (n,)
+        Frame level, dB re full scale (:func:`frame_level_db`).
+    on_threshold, off_threshold : float
+        ``0 < on_threshold <= off_threshold``.
+    floor_db, margin_db : float
+        Level floor (dB re full scale) and the extra drop (dB, >= 0) needed to
+        turn off on level alone.
+    initial : bool
+        State before the first frame.
+
+    Returns
+    -------
+    voiced : bool array (n,)
+    state : bool
+        State after the last frame (``initial`` if ``n == 0``).
+    """
+    ap = np.asarray(aperiodicity, dtype=np.float64)
+    lv = np.asarray(level_db, dtype=np.float64)
+    if ap.ndim != 1 or lv.shape != ap.shape:
+        raise ValueError(f"aperiodicity and level_db must be 1-D of equal length, got {ap.shape} and {lv.shape}")
+    if not (0.0 < on_threshold <= off_threshold):
+        raise ValueError(f"need 0 < on_threshold <= off_threshold, got {on_threshold} and {off_threshold}")
+    if not margin_db >= 0:
+        raise ValueError(f"margin_db must be >= 0 dB, got {margin_db!r}")
+    ap = np.where(np.isnan(ap), np.inf, ap)
+    turn_on = (ap < on_threshold) & (lv > floor_db)
+    turn_off = (ap > off_threshold) | (lv < floor_db - margin_db) | np.isnan(lv)
+    turn_on &= ~turn_off
+    event = turn_on | turn_off
+    idx = np.where(event, np.arange(len(ap)), -1)
+    last = np.maximum.accumulate(idx) if len(ap) else idx
+    voiced = np.where(last >= 0, turn_on[np.maximum(last, 0)], bool(initial))
+    state = bool(voiced[-1]) if len(voiced) else bool(initial)
+    return voiced.astype(bool), state
+
+
+@dataclass
+class VoicingGate:
+    """Streaming wrapper around :func:`voicing_hysteresis` that keeps the state.
+
+    ``gate.update(aperiodicity, level_db)`` returns the decisions for the new
+    frames; calling it block by block gives the same result as one call on
+    the whole run. Thresholds as in :func:`voicing_hysteresis`.
+    """
+
+    on_threshold: float = 0.2
+    off_threshold: float = 0.3
+    floor_db: float = -50.0
+    margin_db: float = 6.0
+    state: bool = False
+
+    def __post_init__(self) -> None:
+        if not (0.0 < self.on_threshold <= self.off_threshold):
+            raise ValueError(f"need 0 < on_threshold <= off_threshold, got {self.on_threshold} "
+                             f"and {self.off_threshold}")
+        if not self.margin_db >= 0:
+            raise ValueError(f"margin_db must be >= 0 dB, got {self.margin_db!r}")
+
+    def update(self, aperiodicity, level_db) -> np.ndarray:
+        """Decisions (bool array) for the next frames; advances the state."""
+        voiced, self.state = voicing_hysteresis(
+            np.atleast_1d(aperiodicity), np.atleast_1d(level_db), on_threshold=self.on_threshold,
+            off_threshold=self.off_threshold, floor_db=self.floor_db, margin_db=self.margin_db,
+            initial=self.state)
+        return voiced
+
+    def reset(self, state: bool = False) -> None:
+        """Forget the history (e.g. after an input gap)."""
+        self.state = bool(state)
