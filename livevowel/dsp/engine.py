@@ -1,0 +1,886 @@
+"""The formant analysis engine: samples in, one :class:`~livevowel.dsp.types.Frame` per hop out.
+
+Two ways in, one analysis:
+
+* :func:`analyze` -- a whole signal. Offline (``causal=False``) frames are
+  computed in batches and the F1/F2/F3 assignment is a dynamic-programming
+  (Viterbi) path over each voiced stretch. ``causal=True`` runs exactly the
+  streaming analyser over the whole signal.
+* :class:`StreamingAnalyzer` -- blocks of any size, state kept between them.
+  Concatenating its outputs over any block split plus :meth:`flush` gives the
+  same frames, bit for bit, as ``analyze(..., causal=True)``.
+
+Stages (both paths)
+
+1. *Input*: 1-D or ``(n, channels)`` (channels averaged); integers scaled to
+   +-1 (int16 / 32768 etc.); NaN or infinite samples raise
+   :class:`BadSamples` (a ``ValueError`` that the CLI prints as a one-line
+   error) -- the engine never guesses what a broken sample meant.
+2. *Resampling* to the analysis rate ``2 x ceiling`` with
+   :func:`scipy.signal.resample_poly` (streaming: the same filter, causal,
+   :class:`~livevowel.dsp.resample.StreamResampler`). An input whose Nyquist
+   frequency is below the ceiling is analysed at its own rate with the
+   ceiling capped (a warning says so; 8 kHz telephone audio gets 4 kHz).
+3. *Frames* (:mod:`livevowel.dsp.framing`): window ``window_s`` (25 ms),
+   hop ``hop_s`` (10 ms) rounded to whole samples; mean removed (DC),
+   pre-emphasis from ``pre_emphasis_hz``, Gaussian taper. Frame time = window
+   centre in input time.
+4. *Per-frame measures*: level (dB re full scale, :func:`frame_level_db`), F0
+   and aperiodicity (YIN, de Cheveigné & Kawahara 2002, on a window of two
+   periods of ``f0_min_hz`` centred on the same point), voicing with
+   hysteresis (:func:`voicing_hysteresis`), LPC of order ``2 x formants + 2``
+   (five formants below the voice's nominal ceiling; fewer when capped) by
+   ``method``, formant candidates from the batched polynomial roots.
+5. *Tracking* (:mod:`livevowel.dsp.tracking`): candidates -> F1/F2/F3 with
+   costs for bandwidth, distance from the voice's reference formants,
+   harmonic attraction and frame-to-frame change.
+6. *Smoothing*: offline, median of three along the track; causal, median of
+   (previous, current, provisional next) and an adaptive one-pole filter that
+   resets on jumps.
+7. *Gaps*: unvoiced runs up to ``hold_s`` (50 ms) keep the tracker state and
+   report the last formants (``voiced`` False, confidence 0); longer runs
+   reset it and report NaN.
+
+Voice and ceiling (common practice, from memory): adult_male 5000 Hz,
+adult_female 5500 Hz, child 8000 Hz. ``voice="auto"`` decides from the
+median F0 of voiced frames: below 165 Hz adult_male, below 250 Hz
+adult_female, else child. Offline the whole file's voiced frames are used.
+Causally, the analyser starts as adult_female and settles once ``auto_settle_s``
+(0.5 s) of voiced frames has been seen, then keeps that voice for the rest of
+the stream; until then it runs the candidate voices side by side so the switch
+needs no re-analysis (the decision is made at a fixed frame, so it is the same
+for every block split).
+
+Harmonic attraction (high F0): plain autocorrelation LPC is pulled towards
+harmonics when F0 is high (the spectrum is sampled only every F0 Hz). The
+default ``method="weighted"`` uses stabilised weighted linear prediction
+(Magi et al. 2009; Alku et al. 2013), which discounts the samples around each
+glottal pulse; the tracker penalises candidates that are narrow and sit on a
+harmonic ``k x F0`` (``w_harm``). The accuracy tests compare against plain
+autocorrelation LPC on the same frames.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings as _warnings
+from dataclasses import dataclass, field, fields, replace
+from typing import Any
+
+import numpy as np
+
+from livevowel.dsp import framing
+from livevowel.dsp.lpc import METHODS, formant_candidates, lpc
+from livevowel.dsp.pitch import frame_level_db, voicing_hysteresis, yin, yin_frame_length
+from livevowel.dsp.resample import StreamResampler, resample
+from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
+                                    state_table, viterbi_segments)
+from livevowel.dsp.types import Frame, FrameTrack
+from livevowel.errors import UserError
+
+__all__ = [
+    "VOICES",
+    "NOMINAL_CEILING_HZ",
+    "AnalysisSettings",
+    "AnalysisResult",
+    "BadSamples",
+    "analyze",
+    "StreamingAnalyzer",
+    "voice_from_f0",
+]
+
+#: Speaker groups the engine knows.
+VOICES: tuple[str, ...] = ("adult_male", "adult_female", "child", "auto")
+
+#: Formant ceiling per voice, Hz (common practice, from memory).
+NOMINAL_CEILING_HZ: dict[str, float] = {"adult_male": 5000.0, "adult_female": 5500.0, "child": 8000.0}
+
+#: Reference F1..F3 per voice, Hz: a uniform tube closed at one end,
+#: F_n = (2n - 1) c / 4L with c = 350 m/s and L = 17.5 / 15 / 12 cm
+#: (common practice; tract lengths from memory). A weak pull only.
+REFERENCE_HZ: dict[str, tuple[float, float, float]] = {
+    "adult_male": (500.0, 1500.0, 2500.0),
+    "adult_female": (583.0, 1750.0, 2917.0),
+    "child": (729.0, 2188.0, 3646.0),
+}
+
+#: Number of formants assumed below the nominal ceiling (LPC order = 2 n + 2).
+FORMANTS_BELOW_CEILING = 5
+
+#: F0 boundaries (Hz) used by ``voice="auto"`` (between group means of
+#: Peterson & Barney 1952: men ~130, women ~220, children ~260 Hz, from memory).
+AUTO_F0_MALE_BELOW_HZ = 165.0
+AUTO_F0_FEMALE_BELOW_HZ = 250.0
+
+_AUTO_DEFAULT = "adult_female"
+_LOWEST_RATE_HZ = 8000
+_HIGHEST_RATE_HZ = 192000
+
+
+class BadSamples(UserError, ValueError):
+    """The input holds samples the engine cannot analyse (NaN, infinite, wrong type)."""
+
+
+def voice_from_f0(median_f0_hz: float) -> str:
+    """Voice group for a median F0 (Hz); see the module notes for the bounds."""
+    if not np.isfinite(median_f0_hz):
+        return _AUTO_DEFAULT
+    if median_f0_hz < AUTO_F0_MALE_BELOW_HZ:
+        return "adult_male"
+    if median_f0_hz < AUTO_F0_FEMALE_BELOW_HZ:
+        return "adult_female"
+    return "child"
+
+
+# ---------------------------------------------------------------------------
+# settings
+
+
+@dataclass(frozen=True, kw_only=True)
+class AnalysisSettings:
+    """Engine settings (keyword-only, immutable). Units in the names.
+
+    Attributes
+    ----------
+    voice : {"adult_male", "adult_female", "child", "auto"}
+        Speaker group; sets the formant ceiling and the reference formants.
+    ceiling_hz : float or None
+        Formant ceiling in Hz; None follows ``voice``.
+    window_s, hop_s : float
+        Analysis window and hop in seconds.
+    pre_emphasis_hz : float
+        Pre-emphasis corner in Hz (0 = off).
+    window : {"gaussian", "hann", "hamming"}
+        Taper (see :mod:`livevowel.dsp.framing`).
+    method : {"weighted", "autocorrelation", "burg"}
+        Linear-prediction method (see :mod:`livevowel.dsp.lpc`).
+    f0_min_hz, f0_max_hz : float
+        F0 search range in Hz.
+    yin_threshold : float
+        YIN absolute threshold.
+    voicing_on, voicing_off : float
+        Aperiodicity below which voicing turns on / above which it turns off.
+    voicing_floor_db : float
+        Level (dB re full scale) below which a frame cannot turn voicing on.
+    max_bandwidth_hz : float
+        Candidates wider than this are not formants (Hz).
+    hold_s : float
+        Unvoiced gaps up to this long keep the track (seconds).
+    smoother_alpha : float
+        Smallest one-pole coefficient of the causal display smoother (0..1].
+    smoother_jump : float
+        Relative change that passes the smoother at once (0.15 = 15 %).
+    auto_settle_s : float
+        Voiced time after which causal ``voice="auto"`` settles (seconds).
+    w_freq, w_bw, w_harm, w_trans, miss_cost : float
+        Tracking cost weights (see :mod:`livevowel.dsp.tracking`).
+    """
+
+    voice: str = "auto"
+    ceiling_hz: float | None = None
+    window_s: float = 0.025
+    hop_s: float = 0.010
+    pre_emphasis_hz: float = 50.0
+    window: str = "gaussian"
+    method: str = "weighted"
+    f0_min_hz: float = 60.0
+    f0_max_hz: float = 700.0
+    yin_threshold: float = 0.2
+    voicing_on: float = 0.25
+    voicing_off: float = 0.4
+    voicing_floor_db: float = -50.0
+    max_bandwidth_hz: float = 700.0
+    hold_s: float = 0.05
+    smoother_alpha: float = 0.4
+    smoother_jump: float = 0.15
+    auto_settle_s: float = 0.5
+    w_freq: float = 1.0
+    w_bw: float = 1.0
+    w_harm: float = 0.5
+    w_trans: float = 6.0
+    miss_cost: float = 2.0
+
+    def __post_init__(self) -> None:
+        def bad(msg: str) -> None:
+            raise ValueError(f"AnalysisSettings: {msg}")
+
+        if self.voice not in VOICES:
+            bad(f"voice {self.voice!r} is not one of {', '.join(VOICES)}")
+        if self.ceiling_hz is not None and not (1000.0 <= float(self.ceiling_hz) <= 20000.0):
+            bad(f"ceiling_hz {self.ceiling_hz} is outside 1000..20000 Hz")
+        if not (0.005 <= self.window_s <= 0.2):
+            bad(f"window_s {self.window_s} is outside 0.005..0.2 s")
+        if not (0.001 <= self.hop_s <= self.window_s * 4):
+            bad(f"hop_s {self.hop_s} must be at least 0.001 s and at most 4 windows")
+        if self.pre_emphasis_hz < 0:
+            bad("pre_emphasis_hz must be >= 0")
+        if self.window not in framing.WINDOWS:
+            bad(f"window {self.window!r} is not one of {', '.join(framing.WINDOWS)}")
+        if self.method not in METHODS:
+            bad(f"method {self.method!r} is not one of {', '.join(METHODS)}")
+        if not (0 < self.f0_min_hz < self.f0_max_hz):
+            bad("need 0 < f0_min_hz < f0_max_hz")
+        if not (0 < self.voicing_on <= self.voicing_off):
+            bad("need 0 < voicing_on <= voicing_off")
+        if not (0 < self.yin_threshold < 1):
+            bad("yin_threshold must be between 0 and 1")
+        if self.hold_s < 0 or self.auto_settle_s < 0:
+            bad("hold_s and auto_settle_s must be >= 0")
+        if not (0 < self.smoother_alpha <= 1) or not self.smoother_jump > 0:
+            bad("need 0 < smoother_alpha <= 1 and smoother_jump > 0")
+
+    @classmethod
+    def from_config(cls, settings: Any) -> "AnalysisSettings":
+        """Build from a :class:`livevowel.config.Settings` (its ``analysis`` section).
+
+        Keys ending in ``_ms`` are converted to seconds; keys the dataclass
+        does not know are ignored (they belong to other layers).
+        """
+        sec = dict(settings["analysis"])
+        kw: dict[str, Any] = {}
+        names = {f.name for f in fields(cls)}
+        for key, value in sec.items():
+            if key.endswith("_ms") and key[:-3] + "_s" in names:
+                kw[key[:-3] + "_s"] = float(value) / 1000.0
+            elif key in names:
+                kw[key] = value
+        try:
+            return cls(**kw)
+        except ValueError as exc:
+            raise UserError(f"analysis settings: {exc}") from None
+
+    def costs(self) -> TrackerCosts:
+        return TrackerCosts(w_freq=self.w_freq, w_bw=self.w_bw, w_harm=self.w_harm, w_trans=self.w_trans,
+                            miss_cost=self.miss_cost)
+
+
+@dataclass
+class AnalysisResult:
+    """What :func:`analyze` returns.
+
+    Attributes
+    ----------
+    frames : FrameTrack
+    analysis_rate_hz : float
+        Rate the formants were measured at (2 x ceiling, or the input rate when capped).
+    ceiling_hz : float
+    voice : str
+        The voice used (the decided one when the setting was ``"auto"``; for
+        causal auto, the voice it settled on).
+    order : int
+        LPC order.
+    method : str
+    input_rate_hz : float
+    warnings : list of str
+    """
+
+    frames: FrameTrack
+    analysis_rate_hz: float
+    ceiling_hz: float
+    voice: str
+    order: int
+    method: str
+    input_rate_hz: float
+    warnings: list[str] = field(default_factory=list)
+
+
+# ---------------------------------------------------------------------------
+# input handling
+
+
+def _check_rate(rate_hz: Any) -> int:
+    try:
+        r = float(rate_hz)
+    except (TypeError, ValueError):
+        raise BadSamples(f"sampling rate must be a number in Hz, got {rate_hz!r}") from None
+    if not np.isfinite(r) or r != int(r):
+        raise BadSamples(f"sampling rate must be a whole number of Hz, got {rate_hz!r}")
+    if not (_LOWEST_RATE_HZ <= r <= _HIGHEST_RATE_HZ):
+        raise BadSamples(f"sampling rate {r:g} Hz is outside {_LOWEST_RATE_HZ}..{_HIGHEST_RATE_HZ} Hz; "
+                         "resample the recording first")
+    return int(r)
+
+
+def to_mono_float(samples: Any, *, where: str = "input") -> np.ndarray:
+    """1-D float64 samples in full-scale units from 1-D or ``(n, channels)`` input.
+
+    Integers are scaled to +-1 by their type's range (``int16 / 32768``;
+    unsigned types are centred first); channels are averaged.
+
+    Raises
+    ------
+    BadSamples
+        Non-numeric data, more than two dimensions, or NaN/infinite samples.
+    """
+    x = np.asarray(samples)
+    if x.dtype.kind not in "fiu":
+        raise BadSamples(f"{where}: samples must be numbers (int or float), got dtype {x.dtype}")
+    if x.ndim == 2:
+        pass
+    elif x.ndim == 1:
+        x = x[:, None]
+    elif x.ndim == 0:
+        x = x.reshape(1, 1)
+    else:
+        raise BadSamples(f"{where}: samples must be 1-D or (n, channels), got shape {x.shape}")
+    if x.dtype.kind == "i":
+        scale = float(2 ** (8 * x.dtype.itemsize - 1))
+        y = x.astype(np.float64) / scale
+    elif x.dtype.kind == "u":
+        half = float(2 ** (8 * x.dtype.itemsize - 1))
+        y = (x.astype(np.float64) - half) / half
+    else:
+        y = x.astype(np.float64)
+        if not np.all(np.isfinite(y)):
+            bad = np.flatnonzero(~np.all(np.isfinite(y), axis=1))
+            raise BadSamples(f"{where}: {len(bad)} sample(s) are NaN or infinite (first at index {bad[0]}); "
+                             "repair or trim the recording")
+    if y.shape[1] == 1:
+        return y[:, 0].copy()
+    return y.mean(axis=1)
+
+
+# ---------------------------------------------------------------------------
+# analysis plan for one ceiling
+
+
+@dataclass(frozen=True)
+class _Plan:
+    voice: str
+    ceiling_hz: float
+    rate_hz: int
+    order: int
+    hop: int
+    n: int
+    n_pitch: int
+    ext: int          # pitch window samples beyond the formant window on each side
+    coef: float
+    taper: np.ndarray = field(repr=False)
+    ref_hz: np.ndarray = field(repr=False)
+    min_hz: float = 90.0
+
+    @property
+    def need_after(self) -> int:
+        """Samples needed past a frame's start: window plus pitch extension."""
+        return self.n + self.ext
+
+
+def _make_plan(s: AnalysisSettings, voice: str, input_rate: int) -> tuple[_Plan, list[str]]:
+    warns: list[str] = []
+    nominal = NOMINAL_CEILING_HZ[voice]
+    ceiling = float(s.ceiling_hz) if s.ceiling_hz is not None else nominal
+    rate = int(round(2 * ceiling))
+    if rate > input_rate:
+        rate = input_rate
+        capped = rate / 2.0
+        warns.append(f"input rate {input_rate} Hz limits the formant ceiling to {capped:g} Hz "
+                     f"(the {voice.replace('_', ' ')} voice wants {ceiling:g} Hz); high formants may be missed")
+        ceiling = capped
+    ref = np.array(REFERENCE_HZ[voice])
+    if s.ceiling_hz is not None:
+        ref = ref * (ceiling / nominal)
+    n_form = max(3, int(round(FORMANTS_BELOW_CEILING * ceiling / nominal)))
+    order = 2 * n_form + 2
+    hop = max(1, int(round(s.hop_s * rate)))
+    n = max(order + 2, int(round(s.window_s * rate)))
+    f0_max = min(s.f0_max_hz, rate / 4.0)
+    n_pitch = yin_frame_length(rate_hz=rate, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max)
+    if (n_pitch - n) % 2:
+        n_pitch += 1
+    ext = max(0, (n_pitch - n) // 2)
+    n_pitch = n + 2 * ext
+    plan = _Plan(voice=voice, ceiling_hz=ceiling, rate_hz=rate, order=order, hop=hop, n=n, n_pitch=n_pitch,
+                 ext=ext, coef=framing.pre_emphasis_coefficient(s.pre_emphasis_hz, rate),
+                 taper=framing.taper(s.window, n), ref_hz=ref)
+    return plan, warns
+
+
+def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np.ndarray, *,
+              pitch: bool) -> dict[str, np.ndarray]:
+    """Measures of frames ``ks`` from samples ``x`` whose first element is sample ``base``.
+
+    Samples outside ``x`` read as zero. Returns level_db, f0_hz, aper (when
+    ``pitch``), cand_f, cand_b (n, order // 2).
+    """
+    ks = np.asarray(ks, dtype=np.int64)
+    n_k = len(ks)
+    out: dict[str, np.ndarray] = {}
+    if n_k == 0:
+        k2 = plan.order // 2
+        out.update(level_db=np.zeros(0), f0_hz=np.zeros(0), aper=np.zeros(0),
+                   cand_f=np.zeros((0, k2)), cand_b=np.zeros((0, k2)))
+        return out
+    starts = ks * plan.hop
+    lo = int(starts[0]) - plan.ext - 1
+    hi = int(starts[-1]) + plan.n + plan.ext
+    seg = np.zeros(hi - lo)
+    a, b = max(lo, base), min(hi, base + len(x))
+    if b > a:
+        seg[a - lo: b - lo] = x[a - base: b - base]
+    view = np.lib.stride_tricks.sliding_window_view(seg, plan.n_pitch + 1)
+    rows = view[starts - lo - plan.ext - 1 + 0]          # (n_k, n_pitch + 1), row start = frame start - ext - 1
+    formant_rows = rows[:, plan.ext: plan.ext + plan.n + 1]  # one extra sample before the frame
+    if pitch:
+        out["level_db"] = frame_level_db(formant_rows[:, 1:])
+        f0_max = min(s.f0_max_hz, plan.rate_hz / 4.0)
+        f0, ap = yin(rows[:, 1:], rate_hz=plan.rate_hz, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max,
+                     threshold=s.yin_threshold, fallback=True)
+        out["f0_hz"], out["aper"] = f0, ap
+    cond = framing.condition_frames(formant_rows, coef=plan.coef, window=plan.taper)
+    coeffs = lpc(cond, order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)
+    cf, cb = formant_candidates(coeffs, rate_hz=plan.rate_hz, min_hz=plan.min_hz,
+                                max_hz=plan.rate_hz / 2.0 - plan.min_hz, max_bandwidth_hz=s.max_bandwidth_hz)
+    out["cand_f"], out["cand_b"] = cf, cb
+    return out
+
+
+def _confidence(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: np.ndarray, level_db: np.ndarray,
+                floor_db: float) -> np.ndarray:
+    """0..1 per frame from bandwidths, stability of the track, periodicity and level."""
+    with np.errstate(invalid="ignore", divide="ignore", all="ignore"):
+        bw = np.where(np.isfinite(b[:, :2]), b[:, :2], 1000.0)
+        c_bw = np.exp(-np.mean(bw, axis=1) / 400.0)
+        dev = np.abs(np.log(f[:, :2] / raw[:, :2]))
+        dev = np.where(np.isfinite(dev), dev, 1.0)
+        c_stab = np.exp(-np.sum(dev, axis=1) / 0.1)
+        c_ap = np.clip(1.0 - np.nan_to_num(aper, nan=1.0) / 0.45, 0.0, 1.0)
+        c_lv = np.clip((level_db - floor_db) / 20.0, 0.0, 1.0)
+        c_f3 = np.where(np.isfinite(f[:, 2]), 1.0, 0.8)
+        c = np.sqrt(c_bw * c_stab) * c_ap * c_lv * c_f3
+    ok = np.isfinite(f[:, 0]) & np.isfinite(f[:, 1])
+    return np.where(ok, np.clip(c, 0.0, 1.0), 0.0)
+
+
+# ---------------------------------------------------------------------------
+# offline path
+
+
+def _prepare(samples: Any, rate_hz: Any, settings: AnalysisSettings | None) -> tuple[np.ndarray, int, AnalysisSettings]:
+    rate = _check_rate(rate_hz)
+    s = settings if settings is not None else AnalysisSettings()
+    if not isinstance(s, AnalysisSettings):
+        raise TypeError(f"settings must be an AnalysisSettings, got {type(s).__name__}")
+    return to_mono_float(samples), rate, s
+
+
+def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None = None,
+            causal: bool = False) -> AnalysisResult:
+    """Analyse a whole signal.
+
+    Parameters
+    ----------
+    samples : array, shape (n,) or (n, channels)
+        Int or float samples (float in full-scale units, +-1).
+    rate_hz : float
+        Sampling rate in Hz, a whole number in 8000..192000.
+    settings : AnalysisSettings, keyword-only
+        Default ``AnalysisSettings()``.
+    causal : bool
+        False: batch analysis with Viterbi tracking over the whole file.
+        True: exactly what :class:`StreamingAnalyzer` produces (frame-by-frame
+        tracking, one hop of lookahead, display smoothing).
+
+    Returns
+    -------
+    AnalysisResult
+
+    Raises
+    ------
+    BadSamples
+        NaN/infinite samples, unusable dtype or shape, rate out of range.
+    """
+    x, rate, s = _prepare(samples, rate_hz, settings)
+    if causal:
+        sa = StreamingAnalyzer(rate, settings=s)
+        track = FrameTrack.concat([sa.process(x), sa.flush()])
+        return AnalysisResult(frames=track, analysis_rate_hz=float(sa.analysis_rate_hz), ceiling_hz=sa.ceiling_hz,
+                              voice=sa.voice, order=sa.order, method=s.method, input_rate_hz=float(rate),
+                              warnings=list(sa.warnings))
+    warns: list[str] = []
+    voice0 = s.voice if s.voice != "auto" else _AUTO_DEFAULT
+    plan, w = _make_plan(s, voice0, rate)
+    warns += w
+    xa = resample(x, in_rate_hz=rate, out_rate_hz=plan.rate_hz)
+    n_frames = framing.frame_count(len(xa), frame_len=plan.n, hop=plan.hop)
+    if n_frames == 0:
+        warns.append(f"input of {len(x)} samples is shorter than one {1e3 * s.window_s:g} ms window; no frames")
+    ks = np.arange(n_frames)
+    feat = _features(plan, s, xa, 0, ks, pitch=True)
+    voiced, _ = voicing_hysteresis(feat["aper"], feat["level_db"], on_threshold=s.voicing_on,
+                                   off_threshold=s.voicing_off, floor_db=s.voicing_floor_db)
+    if n_frames and np.all(feat["level_db"] <= -119.0):
+        warns.append("input is digital silence; every frame is unvoiced")
+    voice = voice0
+    fplan = plan
+    if s.voice == "auto":
+        f0v = feat["f0_hz"][voiced]
+        med = float(np.nanmedian(f0v)) if np.any(np.isfinite(f0v)) else float("nan")
+        voice = voice_from_f0(med)
+        if voice != voice0:
+            fplan, w = _make_plan(s, voice, rate)
+            warns += [m for m in w if m not in warns]
+            xb = resample(x, in_rate_hz=rate, out_rate_hz=fplan.rate_hz)
+            n2 = framing.frame_count(len(xb), frame_len=fplan.n, hop=fplan.hop)
+            f2 = _features(fplan, s, xb, 0, np.arange(min(n2, n_frames)), pitch=False)
+            k2 = fplan.order // 2
+            cand_f = np.full((n_frames, k2), np.nan)
+            cand_b = np.full((n_frames, k2), np.nan)
+            cand_f[: len(f2["cand_f"])] = f2["cand_f"]
+            cand_b[: len(f2["cand_b"])] = f2["cand_b"]
+            feat["cand_f"], feat["cand_b"] = cand_f, cand_b
+    times = framing.frame_times(n_frames, frame_len=plan.n, hop=plan.hop, rate_hz=plan.rate_hz)
+    track = _offline_track(feat, voiced, times, fplan, s)
+    # clipping note
+    if len(x) and np.max(np.abs(x)) >= 0.999:
+        frac = float(np.mean(np.abs(x) >= 0.999))
+        if frac > 1e-4:
+            warns.append(f"{100 * frac:.2f} % of samples are at full scale (clipping); formants may be off")
+    return AnalysisResult(frames=track, analysis_rate_hz=float(fplan.rate_hz), ceiling_hz=fplan.ceiling_hz,
+                          voice=voice, order=fplan.order, method=s.method, input_rate_hz=float(rate),
+                          warnings=warns)
+
+
+def _offline_track(feat: dict, voiced: np.ndarray, times: np.ndarray, plan: _Plan,
+                   s: AnalysisSettings) -> FrameTrack:
+    n = len(times)
+    costs = s.costs()
+    k = feat["cand_f"].shape[1]
+    states = state_table(k)
+    f0 = np.where(voiced, feat["f0_hz"], np.nan)
+    idx = np.flatnonzero(voiced)
+    raw_f = np.full((n, 3), np.nan)
+    raw_b = np.full((n, 3), np.nan)
+    hold_frames = int(math.floor(s.hold_s / (plan.hop / plan.rate_hz) + 1e-9))
+    if len(idx):
+        cost, sf, sb = local_costs(feat["cand_f"][idx], feat["cand_b"][idx], states=states, ref_hz=plan.ref_hz,
+                                   f0_hz=f0[idx], costs=costs)
+        gaps = np.diff(idx) - 1
+        seg_start = np.concatenate([[True], gaps > hold_frames])
+        best = viterbi_segments(cost, sf, seg_start, costs)
+        ok = best >= 0
+        raw_f[idx[ok]] = sf[np.flatnonzero(ok), best[ok]]
+        raw_b[idx[ok]] = sb[np.flatnonzero(ok), best[ok]]
+    # median of three along the track, within runs of measured frames
+    prev = np.vstack([np.full((1, 3), np.nan), raw_f[:-1]]) if n else raw_f
+    nxt = np.vstack([raw_f[1:], np.full((1, 3), np.nan)]) if n else raw_f
+    sm = median3(prev, raw_f, nxt)
+    conf = _confidence(sm, raw_b, raw_f, feat["aper"], feat["level_db"], s.voicing_floor_db)
+    out_f = sm.copy()
+    out_b = raw_b.copy()
+    # hold short gaps
+    last = -10**9
+    for i in range(n):
+        if np.isfinite(sm[i, 0]):
+            last = i
+            continue
+        if voiced[i]:
+            continue
+        if last >= 0 and i - last <= hold_frames and _gap_ends_within(voiced, i, last, hold_frames):
+            out_f[i] = out_f[last]
+            out_b[i] = out_b[last]
+    conf = np.where(voiced, conf, 0.0)
+    return FrameTrack(time_s=times, voiced=voiced, f0_hz=np.where(voiced, feat["f0_hz"], np.nan),
+                      f1_hz=out_f[:, 0], f2_hz=out_f[:, 1], f3_hz=out_f[:, 2], b1_hz=out_b[:, 0],
+                      b2_hz=out_b[:, 1], b3_hz=out_b[:, 2], level_db=feat["level_db"], confidence=conf)
+
+
+def _gap_ends_within(voiced: np.ndarray, i: int, last: int, hold_frames: int) -> bool:
+    """Offline hold rule: same as causal (hold for the first ``hold_frames`` of any gap)."""
+    return True
+
+
+# ---------------------------------------------------------------------------
+# streaming path
+
+
+class _ChainStream:
+    """Resampler, sample buffer and per-frame measures for one analysis plan."""
+
+    def __init__(self, plan: _Plan, input_rate: int, s: AnalysisSettings, *, pitch: bool) -> None:
+        self.plan = plan
+        self.s = s
+        self.pitch = pitch
+        self.rs = StreamResampler(input_rate, plan.rate_hz)
+        self.buf = np.zeros(0)
+        self.base = 0            # absolute analysis-rate index of buf[0]
+        self.n_a = 0             # analysis samples received
+        self.k = 0               # next frame to compute
+        self.total: int | None = None
+
+    def _append(self, y: np.ndarray) -> None:
+        if len(y):
+            self.buf = np.concatenate([self.buf, y])
+            self.n_a += len(y)
+
+    def _frames_ready(self) -> list[dict]:
+        out = []
+        p = self.plan
+        while True:
+            start = self.k * p.hop
+            if self.total is not None:
+                if start + p.n > self.total:
+                    break
+            elif start + p.need_after > self.n_a:
+                break
+            f = _features(p, self.s, self.buf, self.base, np.array([self.k]), pitch=self.pitch)
+            item = {key: v[0] for key, v in f.items()}
+            item["k"] = self.k
+            out.append(item)
+            self.k += 1
+        # drop samples no longer needed
+        keep_from = self.k * p.hop - p.ext - 1
+        if keep_from > self.base:
+            cut = min(keep_from - self.base, len(self.buf))
+            self.buf = self.buf[cut:]
+            self.base += cut
+        return out
+
+    def push(self, x: np.ndarray) -> list[dict]:
+        self._append(self.rs.process(x))
+        return self._frames_ready()
+
+    def finish(self) -> list[dict]:
+        self._append(self.rs.flush())
+        self.total = self.n_a
+        return self._frames_ready()
+
+
+class StreamingAnalyzer:
+    """Causal analysis of a stream of blocks (see the module notes).
+
+    Parameters
+    ----------
+    input_rate_hz : float
+        Sampling rate of the blocks, Hz (whole number, 8000..192000).
+    settings : AnalysisSettings, keyword-only
+
+    Attributes
+    ----------
+    delay_s : dict
+        Algorithmic delay per stage in seconds: ``resampler`` (FIR delay),
+        ``resampler_block`` (outputs are made in groups of 8), ``window``
+        (half the longest window: a frame's time is its centre),
+        ``lookahead`` (one hop, for the tracker and the median),
+        ``smoother`` (small-signal lag of the one-pole stage; 0 for moves
+        larger than ``smoother_jump``), ``total``.
+    warnings : list of str
+        Notes about the input (capped ceiling, silence, ...).
+    voice, ceiling_hz, analysis_rate_hz, order
+        Of the plan in use (for ``voice="auto"``, the settled one once settled).
+
+    Notes
+    -----
+    Frames are measured one at a time with the same array shapes whatever
+    the block size, so the output is identical for every block split.
+    """
+
+    def __init__(self, input_rate_hz: float, *, settings: AnalysisSettings | None = None) -> None:
+        self.input_rate_hz = _check_rate(input_rate_hz)
+        self.settings = s = settings if settings is not None else AnalysisSettings()
+        if not isinstance(s, AnalysisSettings):
+            raise TypeError(f"settings must be an AnalysisSettings, got {type(s).__name__}")
+        self.warnings: list[str] = []
+        self.auto = s.voice == "auto"
+        voices = ["adult_female", "adult_male", "child"] if self.auto else [s.voice]
+        self.plans: dict[str, _Plan] = {}
+        for v in voices:
+            plan, w = _make_plan(s, v, self.input_rate_hz)
+            self.plans[v] = plan
+            if v == voices[0]:
+                self.warnings += w
+        self.primary = voices[0]
+        self.chains = {v: _ChainStream(self.plans[v], self.input_rate_hz, s, pitch=(v == self.primary))
+                       for v in voices}
+        self.active = self.primary
+        self.settled = not self.auto
+        self._pending: dict[str, dict[int, dict]] = {v: {} for v in voices}
+        self._k = 0                         # next frame to assemble
+        self._voiced_f0: list[float] = []
+        self._settle_frames = int(math.ceil(s.auto_settle_s / s.hop_s - 1e-9))
+        pplan = self.plans[self.primary]
+        self._hop_s = pplan.hop / pplan.rate_hz
+        self._hold_frames = int(math.floor(s.hold_s / self._hop_s + 1e-9))
+        self._gate_state = False
+        self._costs = s.costs()
+        self._tracker = CausalTracker(self._costs)
+        self._smoother = DisplaySmoother(alpha_min=s.smoother_alpha, jump=s.smoother_jump)
+        self._queue: list[dict] = []        # assembled frames awaiting their lookahead
+        self._prev_raw = np.full(3, np.nan)
+        self._last_out: dict | None = None
+        self._gap = 0
+        self._flushed = False
+        self._silent_frames = 0
+        self._frames_out = 0
+        self._clip_samples = 0
+        self._n_in = 0
+        self._warned_clip = False
+
+    # -- properties --------------------------------------------------------
+    @property
+    def voice(self) -> str:
+        return self.active
+
+    @property
+    def plan(self) -> _Plan:
+        return self.plans[self.active]
+
+    @property
+    def ceiling_hz(self) -> float:
+        return self.plan.ceiling_hz
+
+    @property
+    def analysis_rate_hz(self) -> int:
+        return self.plan.rate_hz
+
+    @property
+    def order(self) -> int:
+        return self.plan.order
+
+    @property
+    def delay_s(self) -> dict[str, float]:
+        plans = list(self.plans.values())
+        rs = max(ch.rs.delay_s for ch in self.chains.values())
+        blk = max((ch.rs.group - 1) / ch.plan.rate_hz if not ch.rs.identity else 0.0 for ch in self.chains.values())
+        win = max(((p.n_pitch - 1) / 2.0 + 1) / p.rate_hz for p in plans)
+        look = self._hop_s
+        a = self.settings.smoother_alpha
+        sm = (1.0 - a) / a * self._hop_s
+        d = {"resampler": rs, "resampler_block": blk, "window": win, "lookahead": look, "smoother": sm}
+        d["total"] = sum(d.values())
+        return d
+
+    # -- processing ----------------------------------------------------------
+    def process(self, block: Any) -> FrameTrack:
+        """Feed a block (1-D or ``(n, channels)``, int or float); return the frames completed."""
+        if self._flushed:
+            raise RuntimeError("StreamingAnalyzer.process called after flush(); make a new analyser")
+        x = to_mono_float(block, where="block")
+        self._n_in += len(x)
+        self._clip_samples += int(np.count_nonzero(np.abs(x) >= 0.999))
+        self._push(lambda ch: ch.push(x))
+        return self._assemble(final=False)
+
+    def _push(self, fn) -> None:
+        for v, ch in self.chains.items():
+            for item in fn(ch):
+                if item["k"] >= self._k:
+                    self._pending[v][item["k"]] = item
+
+    def flush(self) -> FrameTrack:
+        """End of input: return the remaining frames. The analyser cannot be reused."""
+        if self._flushed:
+            return FrameTrack.empty()
+        self._flushed = True
+        self._push(lambda ch: ch.finish())
+        out = self._assemble(final=True)
+        if self._frames_out == 0:
+            self.warnings.append(f"input of {self._n_in} samples is shorter than one "
+                                 f"{1e3 * self.settings.window_s:g} ms window; no frames")
+        elif self._silent_frames == self._frames_out:
+            self.warnings.append("input is digital silence; every frame is unvoiced")
+        if self._n_in and self._clip_samples / self._n_in > 1e-4:
+            self.warnings.append(f"{100 * self._clip_samples / self._n_in:.2f} % of samples are at full scale "
+                                 "(clipping); formants may be off")
+        return out
+
+    def _assemble(self, *, final: bool) -> FrameTrack:
+        outs: list[Frame] = []
+        while True:
+            k = self._k
+            prim = self._pending[self.primary]
+            if k not in prim:
+                break
+            act = self._pending[self.active]
+            if k not in act and not final:
+                break                      # the active voice has not measured frame k yet
+            p = prim.pop(k)
+            cand = p if self.active == self.primary else act.pop(k, None)
+            for v, d in self._pending.items():
+                if v not in (self.primary, self.active):
+                    d.pop(k, None)
+            self._queue.append(self._make_record(k, p, cand))
+            self._k += 1
+            while len(self._queue) >= 2:
+                outs.append(self._finalize(self._queue.pop(0), self._queue[0]))
+        if final:
+            while self._queue:
+                nxt = self._queue[1] if len(self._queue) > 1 else None
+                outs.append(self._finalize(self._queue.pop(0), nxt))
+        return FrameTrack.from_frames(outs)
+
+    def _make_record(self, k: int, p: dict, cand: dict | None) -> dict:
+        s = self.settings
+        voiced_arr, self._gate_state = voicing_hysteresis(
+            np.array([p["aper"]]), np.array([p["level_db"]]), on_threshold=s.voicing_on,
+            off_threshold=s.voicing_off, floor_db=s.voicing_floor_db, initial=self._gate_state)
+        voiced = bool(voiced_arr[0])
+        f0 = float(p["f0_hz"]) if voiced else float("nan")
+        plan = self.plans[self.active]     # candidates of this frame come from the voice active now
+        # causal auto voice: settle at a fixed frame; the switch applies from the next frame
+        if not self.settled and voiced and np.isfinite(f0):
+            self._voiced_f0.append(f0)
+            if len(self._voiced_f0) >= self._settle_frames:
+                self._settle(voice_from_f0(float(np.median(self._voiced_f0))))
+        rec = {"k": k, "voiced": voiced, "f0": f0, "aper": float(p["aper"]), "level": float(p["level_db"]),
+               "time": (k * self.plans[self.primary].hop + (self.plans[self.primary].n - 1) / 2.0)
+               / self.plans[self.primary].rate_hz, "cost": None, "sf": None, "sb": None}
+        if voiced and cand is not None:
+            cost, sf, sb = local_costs(cand["cand_f"][None, :], cand["cand_b"][None, :],
+                                       states=state_table(plan.order // 2), ref_hz=plan.ref_hz,
+                                       f0_hz=np.array([f0]), costs=self._costs)
+            rec.update(cost=cost[0], sf=sf[0], sb=sb[0])
+        return rec
+
+    def _settle(self, voice: str) -> None:
+        self.settled = True
+        if voice != self.active:
+            self.active = voice
+        # stop measuring the voices not chosen (the primary keeps F0 and level)
+        for v in list(self.chains):
+            if v not in (self.primary, self.active):
+                del self.chains[v]
+                del self._pending[v]
+
+    def _finalize(self, rec: dict, nxt: dict | None) -> Frame:
+        s = self.settings
+        nan3 = np.full(3, np.nan)
+        raw_f, raw_b, prov = nan3, nan3, nan3
+        if rec["cost"] is not None:
+            cn = sn = None
+            if nxt is not None and nxt["cost"] is not None:
+                cn, sn = nxt["cost"], nxt["sf"]
+            st, pst = self._tracker.step(rec["cost"], rec["sf"], cn, sn)
+            if st >= 0:
+                raw_f, raw_b = rec["sf"][st], rec["sb"][st]
+                if pst >= 0 and sn is not None:
+                    prov = sn[pst]
+        if np.isfinite(raw_f[0]):
+            med = median3(self._prev_raw, raw_f, prov)
+            out_f = self._smoother.step(med)
+            self._prev_raw = raw_f
+            self._gap = 0
+            conf = float(_confidence(out_f[None, :], raw_b[None, :], raw_f[None, :], np.array([rec["aper"]]),
+                                     np.array([rec["level"]]), s.voicing_floor_db)[0])
+            out_b = raw_b
+            self._last_out = {"f": out_f, "b": out_b}
+        else:
+            self._gap += 1
+            self._prev_raw = nan3
+            conf = 0.0
+            if self._last_out is not None and self._gap <= self._hold_frames:
+                out_f, out_b = self._last_out["f"], self._last_out["b"]
+            else:
+                out_f, out_b = nan3, nan3
+                if self._gap > self._hold_frames:
+                    self._tracker.reset()
+                    self._smoother.reset()
+                    self._last_out = None
+        if not rec["voiced"]:
+            conf = 0.0
+        if rec["level"] <= -119.0 and not rec["voiced"]:
+            self._silent_frames += 1
+        self._frames_out += 1
+        return Frame(time_s=float(rec["time"]), voiced=bool(rec["voiced"]), f0_hz=float(rec["f0"]),
+                     f1_hz=float(out_f[0]), f2_hz=float(out_f[1]), f3_hz=float(out_f[2]),
+                     b1_hz=float(out_b[0]), b2_hz=float(out_b[1]), b3_hz=float(out_b[2]),
+                     level_db=float(rec["level"]), confidence=conf)
