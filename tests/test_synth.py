@@ -1,0 +1,441 @@
+"""Checks of the Klatt (1980) cascade synthesiser against outside references.
+
+Sources named beside the values: Klatt (1980) JASA 67, 971-995 (resonator
+equations); Klatt & Klatt (1990) JASA 87, 820-857 (KLGLOTT88 pulse);
+Peterson & Barney (1952) JASA 24, 175-184 (men's vowel means, from memory);
+the local jitter / shimmer (dB) definitions as used in voice analysis
+(mean absolute difference of consecutive periods over the mean period; mean
+absolute dB ratio of consecutive amplitudes; common practice, from memory).
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+import pytest
+from hypothesis import given, settings, strategies as st
+from scipy.linalg import solve_toeplitz
+from scipy.signal import freqz, lfilter, sosfilt
+
+from livevowel.dsp import synth
+from livevowel.dsp.synth import (
+    DEFAULT_BANDWIDTHS_HZ,
+    KlattVoice,
+    Schedule,
+    ScheduleError,
+    Segment,
+    add_noise,
+    antiresonator_coefficients,
+    klglott88_flow,
+    render,
+    resonator_coefficients,
+    synthesize_vowel,
+)
+from livevowel.errors import UserError
+
+# Peterson & Barney (1952), men's means (F0, F1, F2, F3 in Hz), from memory.
+PB_MEN = {
+    "i": (136.0, 270.0, 2290.0, 3010.0),
+    "ɑ": (124.0, 730.0, 1090.0, 2440.0),
+    "u": (141.0, 300.0, 870.0, 2240.0),
+    "ɛ": (130.0, 530.0, 1840.0, 2480.0),
+}
+
+
+# ------------------------------------------------------------------ helpers
+def lpc_formants(y: np.ndarray, rate_hz: float, *, order: int, max_bw_hz: float = 500.0) -> np.ndarray:
+    """Formant frequencies (Hz, ascending) from one long-window LPC fit.
+
+    Autocorrelation method (Hamming window, Toeplitz normal equations solved
+    by scipy), roots of the predictor polynomial with bandwidth below
+    ``max_bw_hz``.
+    """
+    w = y * np.hamming(len(y))
+    r = np.correlate(w, w, mode="full")[len(w) - 1:len(w) + order]
+    a = solve_toeplitz(r[:order], r[1:order + 1])
+    roots = np.roots(np.concatenate([[1.0], -a]))
+    roots = roots[np.imag(roots) > 0]
+    freq = np.angle(roots) * rate_hz / (2 * np.pi)
+    bw = -np.log(np.abs(roots)) * rate_hz / np.pi
+    keep = (bw < max_bw_hz) & (freq > 90.0)
+    return np.sort(freq[keep])
+
+
+def f0_autocorrelation(y: np.ndarray, rate_hz: float, *, f0_min: float, f0_max: float) -> float:
+    """F0 (Hz) from the highest normalised autocorrelation peak, with
+    parabolic interpolation of the lag."""
+    y = y - y.mean()
+    n = len(y)
+    spec = np.fft.rfft(y, 2 * n)
+    r = np.fft.irfft(np.abs(spec) ** 2)[:n]
+    r = r / (r[0] * (n - np.arange(n)) / n)      # unbiased, normalised
+    lo, hi = int(rate_hz / f0_max), int(rate_hz / f0_min) + 1
+    k = lo + int(np.argmax(r[lo:hi]))
+    a, b, c = r[k - 1], r[k], r[k + 1]
+    shift = 0.5 * (a - c) / (a - 2 * b + c)
+    return rate_hz / (k + shift)
+
+
+def inverse_filter(y: np.ndarray, rate_hz: float, formants, bandwidths) -> np.ndarray:
+    """Undo a fixed cascade with Klatt (1980) antiresonators (exact inverse)."""
+    x = y
+    for f, b in zip(formants, bandwidths):
+        a0, a1, a2 = antiresonator_coefficients(f, b, rate_hz=rate_hz)
+        x = lfilter([a0, a1, a2], [1.0], x)
+    return x
+
+
+def local_jitter_pct(periods: np.ndarray) -> float:
+    return 100.0 * np.mean(np.abs(np.diff(periods))) / np.mean(periods)
+
+
+def local_shimmer_db(amps: np.ndarray) -> float:
+    return float(np.mean(np.abs(20.0 * np.log10(amps[1:] / amps[:-1]))))
+
+
+def closures_and_peaks(flow: np.ndarray, rate_hz: float) -> tuple[np.ndarray, np.ndarray]:
+    """Glottal closure instants (s) and per-pulse peak flow of a recovered
+    KLGLOTT88 flow: closure = where the open phase returns to zero, found by
+    linear extrapolation of the last two open-phase samples."""
+    thr = 1e-4 * np.max(flow)
+    open_ = flow > thr
+    ends = np.flatnonzero(open_[:-1] & ~open_[1:])          # last open sample
+    starts = np.flatnonzero(~open_[:-1] & open_[1:]) + 1    # first open sample
+    ends = ends[ends > starts[0]]
+    gci, peaks = [], []
+    for e in ends:
+        s = starts[starts <= e][-1]
+        u1, u2 = flow[e - 1], flow[e]
+        gci.append((e + u2 / (u1 - u2)) / rate_hz)
+        peaks.append(flow[s:e + 1].max())
+    return np.array(gci), np.array(peaks)
+
+
+# --------------------------------------------------------------- resonators
+@pytest.mark.parametrize("f, bw, rate", [
+    (500.0, 60.0, 10000.0),     # Klatt (1980) ran at 10 kHz
+    (1500.0, 100.0, 16000.0),
+    (2500.0, 200.0, 44100.0),
+    (300.0, 50.0, 8000.0),
+])
+def test_resonator_peak_and_bandwidth_match_klatt_1980(f, bw, rate):
+    a, b, c = resonator_coefficients(f, bw, rate_hz=rate)
+    w, h = freqz([a], [1.0, -b, -c], worN=1 << 18, fs=rate)
+    mag = np.abs(h)
+    k = int(np.argmax(mag))
+    # the two-pole peak sits at F to within 1% (Klatt 1980 closed form)
+    assert abs(w[k] - f) <= 0.01 * f
+    half = mag >= mag[k] / np.sqrt(2.0)
+    lo = k - np.argmax(~half[k::-1])
+    hi = k + np.argmax(~half[k:])
+    measured_bw = w[hi] - w[lo]
+    # -3 dB bandwidth equals BW to within 3% for BW << rate (Klatt 1980)
+    assert abs(measured_bw - bw) <= 0.03 * bw
+
+
+@pytest.mark.parametrize("f, bw, rate", [(500.0, 60.0, 10000.0), (3500.0, 250.0, 16000.0)])
+def test_resonator_has_unity_gain_at_dc(f, bw, rate):
+    # A = 1 - B - C gives H(z=1) = 1 (Klatt 1980)
+    a, b, c = resonator_coefficients(f, bw, rate_hz=rate)
+    assert a / (1.0 - b - c) == pytest.approx(1.0, abs=1e-12)
+    _, h = freqz([a], [1.0, -b, -c], worN=[0.0], fs=rate)
+    assert abs(h[0]) == pytest.approx(1.0, abs=1e-12)
+
+
+def test_antiresonator_inverts_resonator_and_nulls_at_f():
+    rate = 10000.0
+    a, b, c = resonator_coefficients(700.0, 80.0, rate_hz=rate)
+    a0, a1, a2 = antiresonator_coefficients(700.0, 80.0, rate_hz=rate)
+    impulse = np.zeros(256)
+    impulse[0] = 1.0
+    y = lfilter([a0, a1, a2], [1.0], lfilter([a], [1.0, -b, -c], impulse))
+    np.testing.assert_allclose(y, impulse, atol=1e-12)
+    w, h = freqz([a0, a1, a2], [1.0], worN=1 << 16, fs=rate)
+    assert abs(h[0]) == pytest.approx(1.0, abs=1e-12)           # unity DC gain (Klatt 1980)
+    assert abs(w[np.argmin(np.abs(h))] - 700.0) < 7.0            # zero pair at F
+
+
+def test_resonator_rejects_bad_values():
+    with pytest.raises(ValueError):
+        resonator_coefficients(6000.0, 100.0, rate_hz=10000.0)
+    with pytest.raises(ValueError):
+        resonator_coefficients(500.0, 0.0, rate_hz=10000.0)
+
+
+def test_klglott88_pulse_shape():
+    # Klatt & Klatt (1990): U = a t^2 - b t^3 over the open phase; normalised
+    # here to peak 1 at tau = 2/3 and zero at both ends.
+    tau = np.linspace(0.0, 1.0, 3001)
+    u = klglott88_flow(tau)
+    assert u[0] == 0.0 and u[-1] == 0.0
+    assert tau[np.argmax(u)] == pytest.approx(2.0 / 3.0, abs=1e-3)
+    assert u.max() == pytest.approx(1.0, abs=1e-6)
+
+
+def test_fast_cascade_kernel_equals_scipy_sosfilt():
+    rng = np.random.default_rng(5)
+    A, B, C = resonator_coefficients(np.array([500.0, 1500.0, 2500.0]), np.array([60.0, 90.0, 120.0]),
+                                     rate_hz=16000.0)
+    sos = np.zeros((3, 6))
+    sos[:, 0], sos[:, 3], sos[:, 4], sos[:, 5] = A, 1.0, -B, -C
+    x = rng.standard_normal(300)
+    zi = rng.standard_normal((3, 2))
+    ref, zf = sosfilt(sos, x, zi=zi)
+    buf = x.reshape(1, -1).copy()
+    z = zi.reshape(1, 3, 2).copy()
+    synth._cascade(sos, buf, z)
+    np.testing.assert_array_equal(buf[0], ref)
+    np.testing.assert_array_equal(z[0], zf)
+
+
+# ----------------------------------------------------------- steady vowels
+@pytest.mark.parametrize("vowel", ["ɑ", "i", "u", "ɛ"])
+def test_spectrum_envelope_peaks_at_peterson_barney_formants(vowel):
+    f0, f1, f2, f3 = PB_MEN[vowel]
+    rate = 10000.0
+    y = synthesize_vowel(formants_hz=(f1, f2, f3), f0_hz=f0, duration_s=0.5, rate_hz=rate)
+    found = lpc_formants(y[1000:4000], rate, order=12)
+    for target in (f1, f2, f3):
+        nearest = found[np.argmin(np.abs(found - target))]
+        # within 6% or 40 Hz (harmonic bias of LPC at male F0)
+        assert abs(nearest - target) <= max(40.0, 0.06 * target), (vowel, target, found)
+
+
+@pytest.mark.parametrize("f0, rate", [
+    (100.0, 16000.0), (124.0, 10000.0), (220.0, 16000.0), (480.0, 16000.0),
+    (500.0, 8000.0), (310.0, 44100.0), (95.0, 96000.0),
+])
+def test_f0_of_output_matches_request_within_1_percent(f0, rate):
+    y = synthesize_vowel(formants_hz=(600.0, 1200.0, 2500.0), f0_hz=f0, duration_s=0.4, rate_hz=rate)
+    est = f0_autocorrelation(y, rate, f0_min=0.7 * f0, f0_max=1.4 * f0)
+    assert est == pytest.approx(f0, rel=0.01)
+
+
+def test_high_f0_periods_are_not_rounded_to_samples():
+    # 480 Hz at 8 kHz is 16.67 samples a period: the pulse train must keep the
+    # fractional period (pitch-synchronous source), so 0.5 s holds 240 periods
+    sch = Schedule((Segment(0.5, "voiced", 480.0, formants_hz=(400.0, 1500.0, 2800.0)),))
+    y, truth = render(sch, rate_hz=8000.0)
+    assert np.allclose(truth.periods_s, 1.0 / 480.0, rtol=1e-12)
+    assert len(truth.period_starts_s) == 240
+    assert f0_autocorrelation(y, 8000.0, f0_min=300, f0_max=700) == pytest.approx(480.0, rel=0.005)
+
+
+def test_output_is_float64_at_the_documented_level():
+    y = synthesize_vowel(formants_hz=(730, 1090, 2440), f0_hz=124, duration_s=0.3, rate_hz=16000)
+    assert y.dtype == np.float64 and len(y) == 4800
+    assert np.max(np.abs(y)) == pytest.approx(10 ** (-6 / 20), rel=1e-12)
+    raw = synthesize_vowel(formants_hz=(730, 1090, 2440), f0_hz=120, duration_s=0.3, rate_hz=16000,
+                           peak_dbfs=None)
+    peak_db = 20 * np.log10(np.max(np.abs(raw)))
+    assert -9.0 < peak_db < -3.0      # calibrated: /ɑ/ at 120 Hz near -6 dBFS
+
+
+# ---------------------------------------------------------- jitter, shimmer
+STEADY = dict(formants=(500.0, 1500.0, 2500.0), bandwidths=DEFAULT_BANDWIDTHS_HZ[:3])
+
+
+def _steady_schedule(**kw):
+    seg = Segment(8.0, "voiced", 120.0, formants_hz=STEADY["formants"])
+    return Schedule((seg,), **kw)
+
+
+@pytest.mark.parametrize("jitter, shimmer", [(1.0, 0.4), (2.5, 0.0), (0.0, 1.0)])
+def test_jitter_and_shimmer_statistics_match_request(jitter, shimmer):
+    sch = _steady_schedule(jitter_pct=jitter, shimmer_db=shimmer)
+    rate = 48000.0
+    y, truth = render(sch, rate_hz=rate, seed=11)
+    # the periods the source used (about 960 of them)
+    assert local_jitter_pct(truth.periods_s) == pytest.approx(jitter, rel=0.1, abs=1e-9)
+    assert local_shimmer_db(truth.pulse_amplitudes) == pytest.approx(shimmer, rel=0.1, abs=1e-9)
+    # and the same measured on the output: inverse filter the cascade
+    # (antiresonators, F4/F5 of the man's voice), integrate the radiation
+    fm = STEADY["formants"] + synth.VOICE_GROUPS["man"]
+    e = inverse_filter(y, rate, fm, DEFAULT_BANDWIDTHS_HZ)
+    flow = np.cumsum(e)
+    gci, peaks = closures_and_peaks(flow, rate)
+    periods = np.diff(gci)
+    assert len(periods) > 900
+    assert np.mean(periods) == pytest.approx(1.0 / 120.0, rel=0.01)
+    assert local_jitter_pct(periods) == pytest.approx(jitter, rel=0.1, abs=0.02)
+    assert local_shimmer_db(peaks) == pytest.approx(shimmer, rel=0.1, abs=0.02)
+
+
+def test_aspiration_level_relative_to_voicing():
+    rate = 16000.0
+    seg = Segment(3.0, "voiced", 150.0, formants_hz=STEADY["formants"])
+    clean, _ = render(Schedule((seg,)), rate_hz=rate, seed=4)
+    breathy, _ = render(Schedule((seg,), aspiration_db=-12.0), rate_hz=rate, seed=4)
+    fm = STEADY["formants"] + synth.VOICE_GROUPS["man"]
+    e_voice = inverse_filter(clean, rate, fm, DEFAULT_BANDWIDTHS_HZ)
+    e_noise = inverse_filter(breathy - clean, rate, fm, DEFAULT_BANDWIDTHS_HZ)
+    ratio_db = 20 * np.log10(np.std(e_noise[800:]) / np.std(e_voice[800:]))
+    assert ratio_db == pytest.approx(-12.0, abs=0.5)
+    # white: the noise excitation has no memory
+    r1 = np.corrcoef(e_noise[800:-1], e_noise[801:])[0, 1]
+    assert abs(r1) < 0.03
+
+
+# -------------------------------------------------------- schedule, truth
+GLIDE = Schedule((
+    Segment(0.20, "silent"),
+    Segment(0.30, "voiced", 130.0, 120.0, (300.0, 870.0, 2240.0), transition_s=0.10, label="u"),
+    Segment(0.30, "voiced", 120.0, 110.0, (270.0, 2290.0, 3010.0), transition_s=0.05,
+            transition="linear", label="i"),
+    Segment(0.10, "noise", formants_hz=(500.0, 1500.0, 2500.0), level_db=-10.0),
+    Segment(0.25, "silent"),
+), jitter_pct=0.8, shimmer_db=0.3, aspiration_db=-25.0)
+
+
+def test_truth_matches_schedule():
+    rate = 16000.0
+    _, truth = render(GLIDE, rate_hz=rate)
+    t = np.array([0.1, 0.3, 0.55, 0.74, 0.85, 1.0])
+    got = truth.at(t)
+    np.testing.assert_array_equal(got["voiced"], [False, True, True, True, False, False])
+    np.testing.assert_array_equal(got["kind"], [0, 1, 1, 1, 2, 0])
+    # F0 linear within a segment: 130 -> 120 over 0.2..0.5 s
+    assert got["f0_hz"][1] == pytest.approx(130.0 - 10.0 * (0.1 / 0.3), abs=1e-9)
+    assert got["f0_hz"][3] == pytest.approx(120.0 - 10.0 * (0.24 / 0.3), abs=1e-9)
+    assert got["f1_hz"][1] == 300.0 and got["f2_hz"][1] == 870.0 and got["f3_hz"][1] == 2240.0
+    assert got["f2_hz"][2] == 2290.0
+    # the linear transition 0.75..0.80 s goes towards the noise segment
+    # (not started at 0.74 s)
+    assert got["f2_hz"][3] == pytest.approx(2290.0, abs=1e-9)
+    mid = truth.at(np.array([0.775]))
+    assert mid["f2_hz"][0] == pytest.approx(0.5 * (2290.0 + 1500.0), abs=30.0)
+    for key in ("f0_hz", "f1_hz", "f2_hz", "f3_hz"):
+        assert np.isnan(got[key][[0, 4, 5]]).all()
+    # smooth (raised-cosine) glide /u/ -> /i/ over 0.40..0.50 s: halfway at 0.45 s
+    g = truth.at(np.array([0.40, 0.45, 0.4999]))
+    assert g["f2_hz"][0] == pytest.approx(870.0, abs=5.0)
+    assert g["f2_hz"][1] == pytest.approx(0.5 * (870.0 + 2290.0), abs=20.0)
+    assert g["f2_hz"][2] == pytest.approx(2290.0, abs=5.0)
+    assert truth.label_at([0.3, 0.6, 2.0]) == ["u", "i", ""]
+    # glottal periods only start inside voiced stretches
+    starts = truth.period_starts_s
+    assert starts.min() >= 0.2 and starts.max() < 0.8
+
+
+def test_truth_formants_are_the_ones_the_resonators_used():
+    # hold one resonator frequency per 1 ms update: Truth reports that value
+    rate = 16000.0
+    _, truth = render(GLIDE, rate_hz=rate)
+    plan = synth._Plan(GLIDE, rate)
+    n = np.arange(int(0.2 * rate), int(0.8 * rate))
+    chunk_mid = (n // plan.chunk + 0.5) * plan.chunk / rate
+    f, _ = plan.tract_at(chunk_mid)
+    got = truth.at(n / rate)
+    np.testing.assert_array_equal(got["f2_hz"], f[:, 1])
+
+
+def test_silence_is_silent():
+    rate = 16000.0
+    y, _ = render(GLIDE, rate_hz=rate)
+    assert np.all(y[:int(0.2 * rate)] == 0.0)           # nothing before the first sound
+    peak = np.max(np.abs(y))
+    tail = y[int(1.0 * rate):]                           # 150 ms after the noise ends
+    assert np.max(np.abs(tail)) < 1e-6 * peak
+    only_silence = Schedule((Segment(0.1, "silent", formants_hz=(500, 1500, 2500)),))
+    z, truth = render(only_silence, rate_hz=rate)
+    assert np.all(z == 0.0) and len(truth.period_starts_s) == 0
+
+
+def test_deterministic_for_a_seed():
+    a, _ = render(GLIDE, rate_hz=16000.0, seed=3)
+    b, _ = render(GLIDE, rate_hz=16000.0, seed=3)
+    c, _ = render(GLIDE, rate_hz=16000.0, seed=4)
+    np.testing.assert_array_equal(a, b)
+    assert not np.array_equal(a, c)
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.lists(st.integers(min_value=1, max_value=900), min_size=1, max_size=60),
+       st.sampled_from([8000.0, 16000.0, 22050.0, 48000.0]))
+def test_block_rendering_equals_whole(blocks, rate):
+    whole, truth = render(GLIDE, rate_hz=rate, seed=7)
+    voice = KlattVoice(GLIDE, rate_hz=rate, seed=7)
+    parts = []
+    i = 0
+    while voice.position < len(whole):
+        parts.append(voice.render(blocks[i % len(blocks)]))
+        i += 1
+    got = np.concatenate(parts)
+    np.testing.assert_array_equal(got[:len(whole)], whole)
+    np.testing.assert_array_equal(voice.truth.periods_s, truth.periods_s)
+
+
+def test_render_after_end_gives_tail_then_zeros():
+    voice = KlattVoice(GLIDE, rate_hz=16000.0)
+    voice.render(voice.n_samples)
+    assert voice.finished
+    more = voice.render(1600)
+    assert more.shape == (1600,) and np.max(np.abs(more)) < 1e-6
+    assert voice.render(0).shape == (0,)
+
+
+def test_noise_segment_is_shaped_by_the_formants():
+    rate = 16000.0
+    sch = Schedule((Segment(1.0, "noise", formants_hz=(700.0, 1200.0, 2600.0)),))
+    y, truth = render(sch, rate_hz=rate)
+    assert np.std(y) > 0
+    assert not truth.at(np.array([0.5]))["voiced"][0]
+    found = lpc_formants(y, rate, order=18)
+    for target in (700.0, 1200.0, 2600.0):
+        assert np.min(np.abs(found - target)) < 0.06 * target
+
+
+# ---------------------------------------------------------- input checks
+@pytest.mark.parametrize("kwargs, words", [
+    (dict(rate_hz=4000.0), "rate_hz"),
+    (dict(f0_hz=2000.0), "F0"),
+    (dict(formants_hz=(500.0, 1500.0, 7900.0)), "formants"),
+    (dict(formants_hz=(500.0, 1500.0)), "3 to 5"),
+    (dict(jitter_pct=-1.0), "jitter"),
+    (dict(duration_s=0.0), "duration"),
+])
+def test_bad_parameters_raise_clear_errors(kwargs, words):
+    args = dict(formants_hz=(500.0, 1500.0, 2500.0), f0_hz=120.0, duration_s=0.1, rate_hz=16000.0)
+    args.update(kwargs)
+    with pytest.raises(ScheduleError, match=words):
+        synthesize_vowel(**args)
+    assert issubclass(ScheduleError, UserError) and issubclass(ScheduleError, ValueError)
+
+
+def test_schedule_errors():
+    with pytest.raises(ScheduleError, match="f0_start_hz"):
+        render(Schedule((Segment(0.1, "voiced", formants_hz=(500, 1500, 2500)),)), rate_hz=16000)
+    with pytest.raises(ScheduleError, match="transition_s"):
+        render(Schedule((Segment(0.1, "voiced", 100, formants_hz=(500, 1500, 2500), transition_s=0.2),)),
+               rate_hz=16000)
+    with pytest.raises(ScheduleError, match="no segments"):
+        render(Schedule(()), rate_hz=16000)
+    with pytest.raises(ScheduleError, match="f5_hz"):
+        render(Schedule((Segment(0.1, "voiced", 100, formants_hz=(500, 1500, 2500)),), f5_hz=4500.0),
+               rate_hz=8000)
+
+
+def test_default_high_formants_dropped_at_low_rates():
+    # at 8 kHz the man's F5 (4500 Hz) is above Nyquist and is left out; F4
+    # (3500 Hz) is below 0.45 x rate = 3600 Hz and stays
+    assert synth._Plan(GLIDE, 8000.0).n_sections == 4
+    assert synth._Plan(GLIDE, 8000.0).high_f.tolist() == [3500.0]
+    assert synth._Plan(replace(GLIDE, voice="woman"), 8000.0).n_sections == 3
+    assert synth._Plan(GLIDE, 16000.0).n_sections == 5
+
+
+# ------------------------------------------------------------- add_noise
+def test_add_noise_reaches_requested_snr():
+    rate = 16000.0
+    y, truth = render(GLIDE, rate_hz=rate)
+    mask = truth.at(np.arange(len(y)) / rate)["voiced"]
+    noisy = add_noise(y, snr_db=15.0, seed=2, mask=mask)
+    noise = noisy - y
+    snr = 10 * np.log10(np.mean(y[mask] ** 2) / np.mean(noise ** 2))
+    assert snr == pytest.approx(15.0, abs=0.1)
+    np.testing.assert_array_equal(noisy, add_noise(y, snr_db=15.0, seed=2, mask=mask))
+    default = add_noise(y, snr_db=15.0, seed=2)
+    assert default.shape == y.shape and not np.array_equal(default, y)
+    with pytest.raises(ValueError):
+        add_noise(np.zeros(100), snr_db=10.0, seed=0)
