@@ -1,0 +1,205 @@
+"""The window and the display loop around a :class:`~livevowel.ui.screen.PracticeScreen`.
+
+The loop runs at the screen's frame rate (60 fps by default) on the main
+thread. Each tick it takes whatever frames the live pipeline has queued
+(``drain()`` never blocks; analysis runs on the pipeline's own threads),
+feeds them to the screen, paints, and handles keys and mouse. Nothing in
+the loop waits for audio, so a slow frame never holds up the audio path.
+
+Headless runs (``headless=True``) use SDL's dummy video driver: no window,
+same drawing, and an optional PNG screenshot at the end.
+
+On the first start per user the screen shows :data:`livevowel.CAUTION`
+until a key is pressed; a marker file in the user data folder
+(``$LIVEVOWEL_DATA``, else ``platformdirs.user_data_dir("livevowel")``)
+remembers that it was read.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from livevowel.errors import UserError
+
+CAUTION_MARKER = "caution-read.txt"
+
+
+def _data_dir() -> Path:
+    from livevowel.session.store import data_dir
+
+    return data_dir()
+
+
+def caution_needed() -> bool:
+    """True until the user has once dismissed the caution on this machine."""
+    return not (_data_dir() / CAUTION_MARKER).exists()
+
+
+def remember_caution() -> None:
+    """Record that the caution was shown and dismissed (best effort)."""
+    from livevowel import CAUTION
+    from livevowel.fileio import write_text_atomic
+
+    folder = _data_dir()
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        write_text_atomic(folder / CAUTION_MARKER,
+                          f"shown and dismissed {time.strftime('%Y-%m-%d %H:%M:%S')}\n{CAUTION}\n")
+    except (OSError, UserError):
+        pass  # not remembering only means it is shown again next time
+
+
+def save_screenshot(surface, path: "str | os.PathLike") -> Path:
+    """Write ``surface`` as a PNG, atomically (temporary file, then rename)."""
+    import pygame
+
+    path = Path(path)
+    if path.suffix.lower() != ".png":
+        raise UserError(f"{path}: screenshots are PNG files; give a name ending in .png")
+    if not path.parent.is_dir():
+        raise UserError(f"{path}: folder {path.parent} does not exist; create it first")
+    tmp = path.with_name(f".{path.stem}.part.png")
+    try:
+        pygame.image.save(surface, str(tmp))
+        os.replace(tmp, path)
+    except (OSError, pygame.error) as exc:
+        try:
+            tmp.unlink()
+        except OSError:
+            pass
+        raise UserError(f"{path}: cannot write the screenshot ({exc}); choose another place") from None
+    return path
+
+
+@dataclass
+class LoopResult:
+    """What a run of the loop did."""
+
+    ticks: int = 0
+    frames: int = 0
+    wall_s: float = 0.0
+    input_s: float = 0.0
+    draw_s: list = field(default_factory=list)
+    screenshot: Path | None = None
+    quit_by_user: bool = False
+
+
+def init_display(*, headless: bool) -> None:
+    """Start pygame's display (dummy driver when headless). Call before making fonts."""
+    if headless:
+        os.environ["SDL_VIDEODRIVER"] = "dummy"
+    import pygame
+
+    pygame.display.init()
+    pygame.font.init()
+
+
+def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | None = None,
+        screenshot: "str | os.PathLike | None" = None, size: tuple[int, int] = (1280, 800),
+        fullscreen: bool = False, fps: int | None = None, show_caution: bool = True,
+        pace: float = 1.0, keep_open: bool = True) -> LoopResult:
+    """Show ``screen`` fed by ``pipeline`` until the user quits or the input ends.
+
+    Parameters
+    ----------
+    screen : PracticeScreen
+    pipeline : LivePipeline
+        Anything with ``start()``, ``stop()``, ``drain() -> list[Frame]``,
+        ``health()`` and ``done``; ``pause()``/``resume()`` are used when present.
+    headless : bool, keyword-only
+        No window (SDL dummy driver); stops when the input ends or after ``seconds``.
+    seconds : float, optional
+        Stop after this much input (seconds of input time); None: until the
+        input ends (headless) or the user quits.
+    screenshot : path, optional
+        Save the last painted picture here (PNG).
+    size : (int, int)
+        Window size in pixels (resizable).
+    fps : int, optional
+        Frame rate (default the screen's option, 60). Headless runs with
+        ``pace`` 0 paint as fast as they can.
+    show_caution : bool
+        Show the first-start caution when it has not been read yet (never headless).
+    pace : float
+        Input pace (1 real time, 0 as fast as possible); sets the wall-clock
+        safety limit of headless runs.
+    keep_open : bool
+        With a window, stay open showing the final state after a finite input ends.
+    """
+    import pygame
+
+    init_display(headless=headless)
+    fps = int(fps or getattr(screen.options, "fps", 60))
+    flags = pygame.RESIZABLE
+    windowed = tuple(size)
+    surface = pygame.display.set_mode((0, 0), pygame.FULLSCREEN) if (fullscreen and not headless) \
+        else pygame.display.set_mode(windowed, flags)
+    pygame.display.set_caption("livevowel")
+    if show_caution and not headless and caution_needed():
+        from livevowel import CAUTION
+
+        screen.caution_text = CAUTION
+    res = LoopResult()
+    clock = pygame.time.Clock()
+    t0 = time.monotonic()
+    limit_wall = None
+    if headless:
+        span = seconds if seconds is not None else 3600.0
+        limit_wall = span / pace + 30.0 if pace > 0 else span * 4 + 60.0
+    pipeline.start()
+    is_full = bool(fullscreen and not headless)
+    try:
+        while True:
+            for ev in pygame.event.get():
+                act = screen.handle_event(ev)
+                if act == "quit":
+                    res.quit_by_user = True
+                elif act == "fullscreen" and not headless:
+                    is_full = not is_full
+                    surface = pygame.display.set_mode((0, 0), pygame.FULLSCREEN) if is_full \
+                        else pygame.display.set_mode(windowed, flags)
+                elif act == "pause":
+                    fn = getattr(pipeline, "pause" if screen.paused else "resume", None)
+                    if fn is not None:
+                        fn()
+                elif act == "caution-closed":
+                    remember_caution()
+                elif ev.type == pygame.VIDEORESIZE and not is_full:
+                    windowed = (max(480, ev.w), max(320, ev.h))
+            if res.quit_by_user:
+                break
+            surface = pygame.display.get_surface()
+            frames = pipeline.drain()
+            now = time.monotonic()
+            if screen.caution_text is not None:
+                frames = []  # nothing is scored until the caution is read
+            screen.feed(frames, now_s=now)
+            screen.set_health(pipeline.health())
+            res.frames += len(frames)
+            if frames:
+                res.input_s = float(frames[-1].time_s)
+            d0 = time.perf_counter()
+            screen.draw(surface, now_s=now)
+            pygame.display.flip()
+            res.draw_s.append(time.perf_counter() - d0)
+            res.ticks += 1
+            if seconds is not None and res.input_s >= seconds:
+                break
+            if pipeline.done and not frames:
+                if headless or not keep_open:
+                    break
+            if limit_wall is not None and now - t0 > limit_wall:
+                break
+            if not (headless and pace == 0):
+                clock.tick(fps)
+        if screenshot is not None:
+            res.screenshot = save_screenshot(surface, screenshot)
+    finally:
+        pipeline.stop()
+        res.wall_s = time.monotonic() - t0
+        pygame.display.quit()
+    return res

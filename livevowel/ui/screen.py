@@ -1,0 +1,587 @@
+"""The practice screen as a reusable component.
+
+:class:`PracticeScreen` is fed analysis frames (``feed``) and input health
+(``set_health``), reacts to pygame events (``handle_event``) and paints
+itself onto any surface (``draw``). It does not own a window, a clock or an
+audio path, so the practice command, the demo and later drills all reuse it:
+they differ only in the frame stream and the target controller they pass
+(:class:`livevowel.feedback.TargetController` or a subclass).
+
+What is on the screen
+---------------------
+* a header: the current target (IPA symbol and an example word), hits out of
+  attempts, and the streak;
+* the vowel plane in phonetic orientation (F2 grows to the left, F1
+  downwards) with a labelled grid in Hz or Bark;
+* the target regions; the current one filled and outlined in the theme's
+  target colour, the others quiet;
+* the voice dot (size and opacity follow confidence), a ~300 ms fading
+  trail, and an arc that fills while the dot is held inside the target; a
+  pulse when a hit is counted;
+* a status strip: input level with clipping warning, noise state, F0,
+  F1/F2/F3, latency, and the input state.
+
+No dot is drawn when the newest frame is unvoiced, unmeasured or below the
+confidence threshold, or when frames stop arriving.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import deque
+from dataclasses import dataclass, replace
+from typing import Any, Callable, Sequence
+
+import numpy as np
+import pygame
+
+from livevowel.feedback import HitCounter, HitEvent, TargetController
+from livevowel.ui import draw as D
+from livevowel.ui.fonts import FontBook
+from livevowel.ui.geometry import Plane, Rect, range_for_outlines
+from livevowel.ui.theme import get_theme, next_theme
+
+
+@dataclass(frozen=True)
+class ScreenOptions:
+    """How the screen looks and judges (the ``practice`` section of the settings)."""
+
+    units: str = "hz"
+    theme: str = "light"
+    large_text: bool = False
+    trail: bool = True
+    trail_s: float = 0.30
+    hold_s: float = 0.25
+    min_confidence: float = 0.4
+    tone: bool = True
+    tone_volume: float = 0.15
+    fps: int = 60
+    stale_s: float = 0.25
+
+    @classmethod
+    def from_settings(cls, settings, **over) -> "ScreenOptions":
+        """Options from ``settings['practice']`` (a :class:`livevowel.config.Settings`)."""
+        p = settings["practice"]
+        o = cls(units=p["units"], theme=p["theme"], large_text=p["large_text"], trail=p["trail"],
+                trail_s=p["trail_ms"] / 1000.0, hold_s=p["hold_ms"] / 1000.0,
+                min_confidence=p["min_confidence"], tone=p["tone"], tone_volume=p["tone_volume"],
+                fps=int(p["fps"]))
+        return replace(o, **{k: v for k, v in over.items() if v is not None})
+
+
+#: Keys of the screen: (key names shown in the help, what they do).
+KEY_HELP: tuple[tuple[str, str], ...] = (
+    ("Space", "pause / resume listening"),
+    ("→  or  N", "next target"),
+    ("←  or  P", "previous target"),
+    ("click", "make the clicked region the target"),
+    ("U", "grid in Hz / Bark"),
+    ("T", "trail on / off"),
+    ("C", "colours: light, dark, high contrast"),
+    ("L", "large text on / off"),
+    ("M", "hit tone on / off"),
+    ("F  or  F11", "full screen on / off"),
+    ("H  or  ?", "this help"),
+    ("Esc  or  Q", "quit (Esc first closes this help)"),
+)
+
+PULSE_S = 0.8
+HIT_FLASH_S = 1.2
+
+
+@dataclass(frozen=True)
+class Layout:
+    """Pixel rectangles of the screen parts and the text unit ``u`` (px per design px)."""
+
+    width: int
+    height: int
+    u: float
+    header: pygame.Rect
+    plot: pygame.Rect
+    strip: pygame.Rect
+
+
+def compute_layout(width: int, height: int, *, text_scale: float = 1.0) -> Layout:
+    """Split a ``width`` x ``height`` window into header, plot and status strip.
+
+    Sizes are designed for 1280x800 and scale with the smaller of the two
+    ratios; ``text_scale`` (large-text mode) enlarges text and the bands that
+    hold it.
+    """
+    base = max(0.55, min(width / 1280.0, height / 800.0))
+    u = base * text_scale
+    header_h = int(78 * u)
+    strip_h = int(56 * u)
+    left = int(26 * base)
+    right = int(84 * u)  # room for the F1 labels
+    top_axis = int(34 * u)  # room for the F2 labels
+    plot = pygame.Rect(left, header_h + top_axis, max(50, width - left - right),
+                       max(50, height - header_h - top_axis - strip_h - int(14 * base)))
+    return Layout(width, height, u, pygame.Rect(0, 0, width, header_h), plot,
+                  pygame.Rect(0, height - strip_h, width, strip_h))
+
+
+class PracticeScreen:
+    """Vowel plane, targets, dot and counters, fed by a frame stream.
+
+    Parameters
+    ----------
+    target_set : TargetSet
+        The regions to draw (already mapped through the speaker's profile
+        when one is used).
+    controller : TargetController, optional
+        Decides the current target (default: free stepping over the set).
+    options : ScreenOptions, keyword-only
+    fonts : FontBook, optional
+        Shared font cache (one is made when omitted; needs ``pygame.font``).
+    on_hit : callable, optional
+        Called with each hit :class:`~livevowel.feedback.HitEvent` (e.g. a tone).
+    """
+
+    def __init__(self, target_set: Any, controller: TargetController | None = None, *,
+                 options: ScreenOptions | None = None, fonts: FontBook | None = None,
+                 on_hit: Callable[[HitEvent], None] | None = None, title: str = "") -> None:
+        self.target_set = target_set
+        self.targets = tuple(target_set.targets)
+        self.controller = controller or TargetController(self.targets)
+        self.options = options or ScreenOptions()
+        self.units = self.options.units
+        self.theme_name = self.options.theme
+        self.large_text = self.options.large_text
+        self.show_trail = self.options.trail
+        self.tone_on = self.options.tone
+        self.fonts = fonts or FontBook()
+        self.on_hit = on_hit
+        self.title = title or getattr(target_set, "title", "")
+        self.counter = HitCounter(hold_s=self.options.hold_s)
+        self.paused = False
+        self.show_help = False
+        self.caution_text: str | None = None
+        self.health: Any = None
+        self.message = ""
+        self._outlines = {t.id: np.asarray(t.outline_hz(64), dtype=float) for t in self.targets}
+        self._centres = {t.id: (float(t.f1_hz), float(t.f2_hz)) for t in self.targets}
+        self._trail: deque = deque()
+        self._dot: Any = None          # newest reliable frame, or None
+        self._last_frame: Any = None   # newest frame of any kind
+        self._newest_t = -math.inf
+        self._last_arrival = -math.inf
+        self._pulses: list[tuple[float, str]] = []
+        self._hit_flash = -math.inf
+        #: (time_s, f1_hz, f2_hz, current target id, inside) of every dot shown.
+        self.dot_log: deque = deque(maxlen=500_000)
+        self.events: deque = deque(maxlen=10_000)
+        self._static: pygame.Surface | None = None
+        self._static_key: tuple | None = None
+        self._plane: Plane | None = None
+        self._layout: Layout | None = None
+        self.frames_seen = 0
+
+    # ------------------------------------------------------------------ input
+    @property
+    def theme(self):
+        return get_theme(self.theme_name, large_text=self.large_text)
+
+    def reliable(self, fr) -> bool:
+        """A frame the dot may show: voiced, F1 and F2 measured, confident enough."""
+        return bool(fr.voiced) and math.isfinite(fr.f1_hz) and math.isfinite(fr.f2_hz) \
+            and fr.f1_hz > 0 and fr.f2_hz > 0 and fr.confidence >= self.options.min_confidence
+
+    def feed(self, frames: Sequence[Any], *, now_s: float) -> list[HitEvent]:
+        """Take the frames that arrived since the last call (oldest first).
+
+        ``now_s`` is the display clock (monotonic seconds) used for the
+        stale-input check and the animations. Returns the hit/attempt events.
+        Frames fed while paused are dropped.
+        """
+        out: list[HitEvent] = []
+        if not frames:
+            return out
+        self._last_arrival = now_s
+        if self.paused:
+            self._dot = None
+            return out
+        for fr in frames:
+            self.frames_seen += 1
+            t = float(fr.time_s)
+            self.controller.update(t)
+            cur = self.controller.current
+            ok = self.reliable(fr)
+            inside = bool(ok and cur.contains(fr.f1_hz, fr.f2_hz))
+            ev = self.counter.update(t, present=ok, inside=inside, target_id=cur.id)
+            for e in ev:
+                self.events.append(e)
+                if e.kind == "hit":
+                    self._pulses.append((now_s, e.target_id))
+                    self._hit_flash = now_s
+                    if self.on_hit is not None and self.tone_on:
+                        self.on_hit(e)
+            out += ev
+            self._last_frame = fr
+            self._newest_t = t
+            if ok:
+                self._dot = fr
+                self._trail.append((t, float(fr.f1_hz), float(fr.f2_hz)))
+                self.dot_log.append((t, float(fr.f1_hz), float(fr.f2_hz), cur.id, inside))
+            else:
+                self._dot = None
+        horizon = self._newest_t - self.options.trail_s
+        while self._trail and self._trail[0][0] < horizon:
+            self._trail.popleft()
+        return out
+
+    def set_health(self, health: Any) -> None:
+        """The input's state (:class:`livevowel.audio.InputHealth` or None)."""
+        self.health = health
+
+    def dot_visible(self, now_s: float) -> bool:
+        return self._dot is not None and not self.paused and now_s - self._last_arrival <= self.options.stale_s
+
+    def dot_position(self, now_s: float) -> tuple[float, float] | None:
+        """Pixel position of the dot at the last draw's layout, or None when hidden."""
+        if not self.dot_visible(now_s) or self._plane is None:
+            return None
+        x, y = self._plane.to_pixel(self._dot.f1_hz, self._dot.f2_hz)
+        return float(x), float(y)
+
+    # ----------------------------------------------------------------- events
+    def toggle_units(self) -> None:
+        self.units = "bark" if self.units == "hz" else "hz"
+
+    def handle_event(self, event) -> str | None:
+        """React to a pygame event; returns "quit", "fullscreen", "pause" or None."""
+        if event.type == pygame.QUIT:
+            return "quit"
+        if event.type == pygame.KEYDOWN:
+            if self.caution_text is not None:
+                self.caution_text = None
+                return "caution-closed"
+            k = event.key
+            if k in (pygame.K_ESCAPE,):
+                if self.show_help:
+                    self.show_help = False
+                    return None
+                return "quit"
+            if k == pygame.K_q:
+                return "quit"
+            if k in (pygame.K_h, pygame.K_F1, pygame.K_QUESTION) or getattr(event, "unicode", "") == "?":
+                self.show_help = not self.show_help
+            elif k == pygame.K_SPACE:
+                self.paused = not self.paused
+                if self.paused:
+                    self._dot = None
+                    self._trail.clear()
+                    self.counter.abandon()
+                return "pause"
+            elif k in (pygame.K_RIGHT, pygame.K_n):
+                self._step(self.controller.next)
+            elif k in (pygame.K_LEFT, pygame.K_p):
+                self._step(self.controller.previous)
+            elif k == pygame.K_u:
+                self.toggle_units()
+            elif k == pygame.K_t:
+                self.show_trail = not self.show_trail
+            elif k == pygame.K_c:
+                self.theme_name = next_theme(self.theme_name)
+            elif k == pygame.K_l:
+                self.large_text = not self.large_text
+            elif k == pygame.K_m:
+                self.tone_on = not self.tone_on
+                self.message = "hit tone on" if self.tone_on else "hit tone off"
+            elif k in (pygame.K_f, pygame.K_F11):
+                return "fullscreen"
+            return None
+        if event.type == pygame.MOUSEBUTTONDOWN and getattr(event, "button", 1) == 1:
+            if self.caution_text is not None:
+                self.caution_text = None
+                return "caution-closed"
+            tid = self.target_at(*event.pos)
+            if tid is not None:
+                self._step(lambda: self.controller.select(tid))
+        return None
+
+    def _step(self, fn) -> None:
+        if self.controller.locked:
+            self.message = "one target in this session"
+            return
+        if fn():
+            self.counter.abandon()
+            self.message = ""
+
+    def target_at(self, x: float, y: float) -> str | None:
+        """Id of the region under pixel (x, y) at the last draw's layout, else the
+        region whose centre is within ~40 px, else None."""
+        if self._plane is None or not self._plane.rect.contains(x, y):
+            return None
+        f1, f2 = self._plane.to_hz(x, y)
+        f1, f2 = float(f1), float(f2)
+        inside = [t for t in self.targets if t.contains(f1, f2)]
+        best, best_d = None, math.inf
+        for t in (inside or self.targets):
+            cx, cy = self._plane.to_pixel(*self._centres[t.id])
+            d = math.hypot(float(cx) - x, float(cy) - y)
+            if d < best_d:
+                best, best_d = t, d
+        if best is None or (not inside and best_d > 40 * (self._layout.u if self._layout else 1)):
+            return None
+        return best.id
+
+    # ------------------------------------------------------------------- draw
+    def plane_for(self, width: int, height: int) -> Plane:
+        """The (F1, F2) <-> pixel mapping for a window of this size."""
+        lay = compute_layout(width, height, text_scale=self.theme.text_scale)
+        rng = range_for_outlines(self._outlines.values(), units=self.units)
+        p = lay.plot
+        return Plane(rng, Rect(p.x, p.y, p.w, p.h), units=self.units)
+
+    def _region_label(self, t) -> str:
+        if self.fonts.has_ipa and getattr(t, "ipa", ""):
+            return t.ipa
+        return getattr(t, "lexical_set", None) or t.id
+
+    def _build_static(self, size: tuple[int, int]) -> None:
+        th = self.theme
+        w, h = size
+        lay = compute_layout(w, h, text_scale=th.text_scale)
+        plane = self.plane_for(w, h)
+        self._layout, self._plane = lay, plane
+        u = lay.u
+        F = self.fonts
+        s = pygame.Surface(size).convert() if pygame.display.get_surface() else pygame.Surface(size)
+        s.fill(th.background)
+        pr = lay.plot
+        pygame.draw.rect(s, th.plot, pr)
+        # grid and tick labels
+        uf1, uf2 = plane.ticks(count_f1=7, count_f2=8)
+        tick = int(17 * u)
+        lw = max(1, int(round(th.line_scale)))
+        for v, yy in zip(uf1, plane.f1_tick_y(uf1)):
+            yy = int(round(yy))
+            if pr.top <= yy <= pr.bottom:
+                pygame.draw.line(s, th.grid, (pr.left, yy), (pr.right, yy), lw)
+                D.blit_text(s, F.text(_fmt(v, self.units), tick, th.axis_text), pr.right + 8 * u, yy, "midleft")
+        for v, xx in zip(uf2, plane.f2_tick_x(uf2)):
+            xx = int(round(xx))
+            if pr.left <= xx <= pr.right:
+                pygame.draw.line(s, th.grid, (xx, pr.top), (xx, pr.bottom), lw)
+                D.blit_text(s, F.text(_fmt(v, self.units), tick, th.axis_text), xx, pr.top - 6 * u, "midbottom")
+        unit = "Hz" if self.units == "hz" else "Bark"
+        D.blit_text(s, F.text(f"← F2 ({unit})", tick, th.axis_text, bold=True), pr.left + 4 * u, pr.top + 4 * u)
+        D.blit_text(s, F.text(f"F1 ({unit}) ↓", tick, th.axis_text, bold=True), pr.right - 4 * u,
+                    pr.bottom - 4 * u, "bottomright")
+        pygame.draw.rect(s, th.grid, pr, lw)
+        # regions: the others first, the current one on top
+        cur = self.controller.current
+        for t in self.targets:
+            if t.id == cur.id:
+                continue
+            pts = plane.outline_to_pixels(self._outlines[t.id])
+            D.translucent_polygon(s, pts, th.region_line, th.region_fill_alpha)
+            D.outline(s, pts, th.region_line, max(1, int(round(1.5 * th.line_scale * u))))
+        pts = plane.outline_to_pixels(self._outlines[cur.id])
+        D.translucent_polygon(s, pts, th.current, th.current_fill_alpha)
+        D.outline(s, pts, th.current, max(2, int(round(4 * th.line_scale * u))))
+        for t in self.targets:
+            cx, cy = plane.to_pixel(*self._centres[t.id])
+            is_cur = t.id == cur.id
+            col = th.current if is_cur else th.text
+            sym = F.text(self._region_label(t), int((40 if is_cur else 30) * u), col, bold=is_cur)
+            word = F.text(t.words[0], int(17 * u), col if is_cur else th.muted_text) if t.words else None
+            if is_cur:
+                # the current target's label sits above its region, where the dot will not cover it
+                top = min(p[1] for p in pts)
+                r = D.blit_text(s, sym, cx, top - 2 * u, "midbottom")
+                if r.top < pr.top:  # no room above: go below
+                    bottom = max(p[1] for p in pts)
+                    r = D.blit_text(s, sym, cx, bottom + 2 * u, "midtop")
+                if word is not None:
+                    D.blit_text(s, word, r.right + 6 * u, r.centery + 4 * u, "midleft")
+                continue
+            r = D.blit_text(s, sym, cx, cy, "midbottom")
+            if word is not None:
+                D.blit_text(s, word, cx, r.bottom, "midtop")
+        # header, static part: the current target
+        hx = int(26 * u)
+        D.blit_text(s, F.text("target", int(17 * u), th.muted_text), hx, lay.header.centery - 22 * u, "midleft")
+        sym = F.text(self._region_label(cur), int(50 * u), th.current, bold=True)
+        r = D.blit_text(s, sym, hx + 70 * u, lay.header.centery + 2 * u, "midleft")
+        word = ", ".join(cur.words[:2]) if cur.words else ""
+        if word:
+            D.blit_text(s, F.text(f"as in  {word}", int(26 * u), th.text), r.right + 18 * u,
+                        lay.header.centery + 2 * u, "midleft")
+        sub = self.title
+        if self.controller.locked:
+            sub = f"{sub}  ·  one target" if sub else "one target"
+        if sub:
+            D.blit_text(s, F.text(sub, int(16 * u), th.muted_text), hx, lay.header.bottom - 4 * u, "bottomleft")
+        pygame.draw.rect(s, th.strip, lay.strip)
+        self._static = s
+
+    def draw(self, surface: pygame.Surface, *, now_s: float) -> None:
+        """Paint the whole screen onto ``surface`` (any size)."""
+        th = self.theme
+        size = surface.get_size()
+        key = (size, self.theme_name, self.large_text, self.units, self.controller.version,
+               self.controller.current.id, self.fonts.has_ipa)
+        if self._static is None or key != self._static_key:
+            self._build_static(size)
+            self._static_key = key
+        surface.blit(self._static, (0, 0))
+        lay, plane, F, u = self._layout, self._plane, self.fonts, self._layout.u
+        pr = lay.plot
+        surface.set_clip(pr)
+        # hit pulses: an expanding ring from the region centre
+        keep = []
+        for start, tid in self._pulses:
+            age = (now_s - start) / PULSE_S
+            if 0 <= age < 1 and tid in self._centres:
+                cx, cy = plane.to_pixel(*self._centres[tid])
+                pts = plane.outline_to_pixels(self._outlines[tid])
+                D.outline(surface, pts, th.hit, max(3, int(5 * u * (1 - age)) + 1))
+                D.ring(surface, cx, cy, (20 + 110 * age) * u, th.hit, max(2, int(6 * u * (1 - age))),
+                       int(230 * (1 - age)))
+                keep.append((start, tid))
+        self._pulses = keep
+        # the dot
+        visible = self.dot_visible(now_s)
+        trail_pts = []
+        if self.show_trail and self._trail and not self.paused and now_s - self._last_arrival <= 1.0:
+            span = max(1e-3, self.options.trail_s)
+            pts = np.array(list(self._trail)[:-1] if visible else list(self._trail), dtype=float).reshape(-1, 3)
+            if len(pts):
+                xs, ys = plane.to_pixel(pts[:, 1], pts[:, 2])
+                ages = np.minimum(1.0, (self._newest_t - pts[:, 0]) / span)
+                trail_pts = list(zip(xs.tolist(), ys.tolist(), ages.tolist()))
+        dx = dy = None
+        if visible:
+            x, y = plane.to_pixel(self._dot.f1_hz, self._dot.f2_hz)
+            dx, dy = float(x), float(y)
+        D.dot_with_trail(surface, trail_pts, dx, dy, confidence=self._dot.confidence if visible else 0.0,
+                         color=th.dot, edge=th.plot, radius=17 * lay.u)
+        if visible and self.counter.hold_progress > 0:
+            col = th.hit if self.counter.hold_progress >= 1 else th.current
+            D.arc(surface, dx, dy, 27 * u, self.counter.hold_progress, col, max(3, int(5 * u)))
+        surface.set_clip(None)
+        self._draw_counters(surface, now_s)
+        self._draw_strip(surface, now_s)
+        if self.show_help:
+            self._draw_help(surface)
+        if self.caution_text is not None:
+            self._draw_caution(surface)
+
+    def _draw_counters(self, surface, now_s: float) -> None:
+        th, F, lay, u = self.theme, self.fonts, self._layout, self._layout.u
+        c = self.counter
+        flash = now_s - self._hit_flash < HIT_FLASH_S
+        x = lay.width - 26 * u
+        cy = lay.header.centery
+        r = D.blit_text(surface, F.text(f"{c.streak}", int(40 * u), th.hit if flash else th.text, bold=True),
+                        x, cy + 4 * u, "midright")
+        r = D.blit_text(surface, F.text("streak", int(17 * u), th.muted_text), r.left - 10 * u, cy + 4 * u,
+                        "midright")
+        r = D.blit_text(surface, F.text(f"of {c.attempts}", int(24 * u), th.text), r.left - 34 * u, cy + 4 * u,
+                        "midright")
+        r = D.blit_text(surface, F.text(f"{c.hits}", int(40 * u), th.hit if flash else th.text, bold=True),
+                        r.left - 10 * u, cy + 4 * u, "midright")
+        D.blit_text(surface, F.text("hits", int(17 * u), th.muted_text), r.left - 10 * u, cy + 4 * u, "midright")
+
+    def _draw_strip(self, surface, now_s: float) -> None:
+        th, F, lay, u = self.theme, self.fonts, self._layout, self._layout.u
+        st = lay.strip
+        size = int(19 * u)
+        small = int(15 * u)
+        cy = st.centery
+        h = self.health
+        x = 20 * u
+        # input level
+        level = getattr(h, "level_db", None)
+        clip = bool(getattr(h, "clipping", False))
+        r = D.blit_text(surface, F.text("input", small, th.muted_text), x, cy, "midleft")
+        mrect = pygame.Rect(int(r.right + 8 * u), int(cy - 7 * u), int(130 * u), int(14 * u))
+        D.level_meter(surface, mrect, level if level is not None else float("nan"), back=th.meter_back,
+                      fill=th.meter_fill, warn=th.warn, clipping=clip)
+        x = mrect.right + 10 * u
+        if clip:
+            r = D.blit_text(surface, F.text("TOO LOUD", size, th.warn, bold=True), x, cy, "midleft")
+            x = r.right + 10 * u
+        # noise
+        snr = getattr(h, "snr_db", None)
+        if snr is not None and math.isfinite(snr):
+            word, col = ("quiet room", th.text) if snr >= 20 else (("some noise", th.text) if snr >= 10
+                                                                 else ("noisy", th.warn))
+            r = D.blit_text(surface, F.text(f"{word} {snr:.0f} dB", size, col), x + 12 * u, cy, "midleft")
+            x = r.right + 10 * u
+        # numbers
+        fr = self._dot if self.dot_visible(now_s) else None
+        last = self._last_frame
+
+        def num(v):
+            return f"{v:.0f}" if v is not None and math.isfinite(v) else "–"
+
+        f0 = last.f0_hz if (last is not None and not self.paused and now_s - self._last_arrival <= 0.5) else None
+        parts = [f"F0 {num(f0)}",
+                 f"F1 {num(fr.f1_hz if fr else None)}",
+                 f"F2 {num(fr.f2_hz if fr else None)}",
+                 f"F3 {num(fr.f3_hz if fr else None)} Hz"]
+        r = D.blit_text(surface, F.text("   ".join(parts), size, th.text, bold=False), x + 16 * u, cy, "midleft")
+        x = r.right
+        # right side: state, latency, help hint
+        state = "paused" if self.paused else (getattr(h, "state", None) or "starting")
+        col = th.warn if state in ("input lost", "stopped") else th.text
+        rx = lay.width - 20 * u
+        r = D.blit_text(surface, F.text("H  help", small, th.muted_text), rx, cy, "midright")
+        r = D.blit_text(surface, F.text(state, size, col, bold=True), r.left - 22 * u, cy, "midright")
+        lat = getattr(h, "latency_s", None)
+        if lat is not None and math.isfinite(lat):
+            r = D.blit_text(surface, F.text(f"latency {lat * 1000:.0f} ms", size, th.text), r.left - 22 * u, cy,
+                            "midright")
+        if self.message:
+            D.blit_text(surface, F.text(self.message, small, th.muted_text), lay.plot.left + 6 * u,
+                        lay.plot.bottom - 6 * u, "bottomleft")
+
+    def _panel(self, surface, width: int, height: int) -> pygame.Rect:
+        th = self.theme
+        veil = pygame.Surface(surface.get_size(), pygame.SRCALPHA)
+        veil.fill((*th.background, 150))
+        surface.blit(veil, (0, 0))
+        r = pygame.Rect(0, 0, min(width, surface.get_width() - 20), min(height, surface.get_height() - 20))
+        r.center = surface.get_rect().center
+        panel = pygame.Surface(r.size, pygame.SRCALPHA)
+        panel.fill(th.overlay)
+        surface.blit(panel, r)
+        pygame.draw.rect(surface, th.current, r, max(2, int(3 * self._layout.u)), border_radius=6)
+        return r
+
+    def _draw_help(self, surface) -> None:
+        th, F, u = self.theme, self.fonts, self._layout.u
+        size = int(22 * u)
+        line = int(size * 1.55)
+        r = self._panel(surface, int(760 * u), int((len(KEY_HELP) + 3) * line))
+        y = r.top + line
+        D.blit_text(surface, F.text("Keys", int(26 * u), th.text, bold=True), r.left + 30 * u, y, "midleft")
+        for k, what in KEY_HELP:
+            y += line
+            D.blit_text(surface, F.text(k, size, th.current, bold=True), r.left + 30 * u, y, "midleft")
+            D.blit_text(surface, F.text(what, size, th.text), r.left + 250 * u, y, "midleft")
+
+    def _draw_caution(self, surface) -> None:
+        th, F, u = self.theme, self.fonts, self._layout.u
+        size = int(24 * u)
+        width = int(820 * u)
+        lines = D.wrap_text(F, self.caution_text or "", size, width - int(60 * u))
+        line = int(size * 1.5)
+        r = self._panel(surface, width, (len(lines) + 4) * line)
+        y = r.top + line
+        D.blit_text(surface, F.text("Before you start", int(28 * u), th.text, bold=True), r.left + 30 * u, y,
+                    "midleft")
+        for ln in lines:
+            y += line
+            D.blit_text(surface, F.text(ln, size, th.text), r.left + 30 * u, y, "midleft")
+        D.blit_text(surface, F.text("Press any key to continue", int(20 * u), th.muted_text), r.left + 30 * u,
+                    r.bottom - line * 0.8, "midleft")
+
+
+def _fmt(v: float, units: str) -> str:
+    if units == "hz":
+        return f"{v:.0f}"
+    return f"{v:.0f}" if abs(v - round(v)) < 1e-6 else f"{v:.1f}"
