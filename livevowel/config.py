@@ -82,6 +82,21 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "f0_min_hz": Key(60.0, "lowest F0 searched, Hz", min=30, max=400),
         "f0_max_hz": Key(700.0, "highest F0 searched, Hz", min=100, max=1500),
     },
+    "live": {
+        "block_ms": Key(10.0, "audio block (device callback) length in milliseconds", min=2, max=100),
+        "queue_size": Key(1000, "result frames held for the display; the oldest are dropped beyond this",
+                          kind=int, min=10, max=100000),
+        "input_queue_s": Key(2.0, "audio held between the device and the analysis, seconds", min=0.1, max=30),
+        "noise_floor_s": Key(1.0, "lead-in over which the room noise floor is measured, seconds", min=0.2, max=10),
+        "noise_margin_db": Key(6.0, "voicing cannot start below the noise floor + this margin (dB); null: off",
+                               min=0, max=40, nullable=True),
+        "max_noise_floor_db": Key(-35.0, "a lead-in louder than this (dBFS) is taken as voice and not used as the floor",
+                                  min=-120, max=0),
+        "clip_level": Key(0.99, "sample magnitude counted as clipping (full scale 1.0)", min=0.5, max=1.0),
+        "lost_after_s": Key(1.0, "seconds without audio from the device before the input counts as lost",
+                            min=0.2, max=30),
+        "retry_s": Key(2.0, "seconds between attempts to reopen a lost input device", min=0.2, max=60),
+    },
 }
 
 

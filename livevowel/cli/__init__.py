@@ -24,6 +24,8 @@ from livevowel.errors import UserError
 #: Command modules in the order ``--help`` lists them.
 COMMAND_MODULES: tuple[str, ...] = (
     "config_cmd",
+    "listen",
+    "devices",
     "bench",
 )
 

@@ -1,0 +1,187 @@
+"""Input health: what the consumer is told about the signal and the path.
+
+:class:`HealthMeter` is fed by the pipeline's worker thread (one block at a
+time, cheap numpy reductions) and produces :class:`InputHealth` snapshots.
+
+Noise floor: the 10th percentile of block levels over the first
+``floor_s`` seconds of the session (common practice: the quietest part of a
+short lead-in is the room). When that estimate is louder than
+``max_floor_db`` the session probably started with a voice, so the floor is
+reported but not used for gating.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+#: States shown to the user.
+STATES = ("starting", "listening", "input lost", "paused", "stopped")
+
+_TINY = 1e-12
+
+
+@dataclass(frozen=True)
+class InputHealth:
+    """A snapshot of the input and the live path.
+
+    Attributes
+    ----------
+    state : str
+        "starting" (no audio yet), "listening", "input lost" (device gone,
+        retrying), "paused" or "stopped".
+    level_db : float
+        RMS level of the latest block, dB re full scale 1.0 (-120 for silence).
+    peak_db : float
+        Peak sample of the latest block, dBFS.
+    clipping : bool
+        Samples at or above the clip level in the last half second.
+    clipped_samples : int
+        Samples at or above the clip level so far.
+    noise_floor_db : float
+        Noise floor measured over the first second, dBFS (``nan`` until measured).
+    floor_used : bool
+        Whether the floor gates voicing (false when it looks like a voice, not a room).
+    snr_db : float
+        Voiced-frame level minus the noise floor, dB (``nan`` until both are known).
+    overflows : int
+        Blocks the device flagged as having lost input samples.
+    dropped : int
+        Results dropped from the bounded output queue (consumer too slow).
+    dropped_blocks : int
+        Input blocks dropped before analysis (analysis too slow).
+    backlog_s : float
+        Audio waiting for analysis, seconds.
+    lag_s : float
+        Back-pressure seen as late delivery: wall time elapsed minus audio
+        delivered, above its lowest value in this stretch of input, seconds.
+        Servers that buffer (PulseAudio) show a slow consumer here, not as overflows.
+    latency_s : float
+        Estimated input-to-result delay now: algorithmic delay + backlog + lag, seconds.
+    seconds : float
+        Audio received so far, seconds.
+    message : str
+        Last event worth showing ("input lost: ...", a source error), or "".
+    """
+
+    state: str = "starting"
+    level_db: float = -120.0
+    peak_db: float = -120.0
+    clipping: bool = False
+    clipped_samples: int = 0
+    noise_floor_db: float = math.nan
+    floor_used: bool = False
+    snr_db: float = math.nan
+    overflows: int = 0
+    dropped: int = 0
+    dropped_blocks: int = 0
+    backlog_s: float = 0.0
+    lag_s: float = 0.0
+    latency_s: float = math.nan
+    seconds: float = 0.0
+    message: str = ""
+
+
+def to_mono(samples: np.ndarray) -> np.ndarray:
+    """(n,) or (n, ch) -> (n,) float32 (mean of the channels)."""
+    x = np.asarray(samples)
+    if x.ndim == 2:
+        x = x[:, 0] if x.shape[1] == 1 else x.mean(axis=1)
+    return x.astype(np.float32, copy=False)
+
+
+class HealthMeter:
+    """Running input measures; fed by one thread, read by any.
+
+    Parameters
+    ----------
+    floor_s : float
+        Length of the lead-in over which the noise floor is measured, seconds.
+    max_floor_db : float
+        A floor louder than this is reported but not used for gating, dBFS.
+    clip_level : float
+        Absolute sample value counted as clipped (full scale 1.0).
+    """
+
+    def __init__(self, *, floor_s: float = 1.0, max_floor_db: float = -35.0, clip_level: float = 0.99) -> None:
+        self.floor_s = float(floor_s)
+        self.max_floor_db = float(max_floor_db)
+        self.clip_level = float(clip_level)
+        self.level_db = -120.0
+        self.peak_db = -120.0
+        self.clipped_samples = 0
+        self._last_clip_s = -math.inf
+        self._now_s = 0.0
+        self._floor_levels: list[float] = []
+        self.noise_floor_db = math.nan
+        self.floor_used = False
+        self._voiced_db = math.nan
+        self.seconds = 0.0
+        self.overflows = 0
+        # back-pressure, per segment
+        self._seg = -1
+        self._seg_t0 = 0.0
+        self._seg_samples = 0
+        self._min_deficit = math.inf
+        self.lag_s = 0.0
+
+    def add_block(self, mono: np.ndarray, *, time_s: float, rate_hz: float, received_s: float, segment: int,
+                  overflow: bool) -> None:
+        """Account for one block of mono samples captured at ``time_s``."""
+        n = mono.shape[0]
+        if n == 0:
+            return
+        ms = float(np.dot(mono, mono)) / n
+        peak = float(np.max(np.abs(mono)))
+        self.level_db = max(-120.0, 10.0 * math.log10(ms + _TINY))
+        self.peak_db = max(-120.0, 20.0 * math.log10(peak + _TINY))
+        end_s = time_s + n / rate_hz
+        self._now_s = end_s
+        if peak >= self.clip_level:
+            self.clipped_samples += int(np.count_nonzero(np.abs(mono) >= self.clip_level))
+            self._last_clip_s = end_s
+        if overflow:
+            self.overflows += 1
+        self.seconds += n / rate_hz
+        if math.isnan(self.noise_floor_db):
+            if segment == 0 and end_s <= self.floor_s + 1e-9:
+                self._floor_levels.append(self.level_db)
+            if end_s >= self.floor_s - 1e-9 or segment > 0:
+                self._settle_floor()
+        # delivered audio against wall time
+        if segment != self._seg:
+            self._seg, self._seg_t0, self._seg_samples, self._min_deficit = segment, received_s - n / rate_hz, 0, math.inf
+        self._seg_samples += n
+        deficit = (received_s - self._seg_t0) - self._seg_samples / rate_hz
+        self._min_deficit = min(self._min_deficit, deficit)
+        self.lag_s = max(0.0, deficit - self._min_deficit)
+
+    def _settle_floor(self) -> None:
+        if not self._floor_levels:
+            return
+        self.noise_floor_db = float(np.percentile(self._floor_levels, 10))
+        self.floor_used = self.noise_floor_db <= self.max_floor_db
+        self._floor_levels = []
+
+    def finish(self) -> None:
+        """End of input: settle the floor even if the input was shorter than ``floor_s``."""
+        if math.isnan(self.noise_floor_db):
+            self._settle_floor()
+
+    def add_voiced_levels(self, levels_db: np.ndarray) -> None:
+        """Frame levels (dBFS) of voiced frames, for the SNR estimate (slow average, ~0.5 s)."""
+        for v in np.asarray(levels_db, dtype=float):
+            if math.isfinite(v):
+                self._voiced_db = v if math.isnan(self._voiced_db) else 0.98 * self._voiced_db + 0.02 * v
+
+    @property
+    def snr_db(self) -> float:
+        if math.isnan(self._voiced_db) or math.isnan(self.noise_floor_db):
+            return math.nan
+        return self._voiced_db - self.noise_floor_db
+
+    @property
+    def clipping(self) -> bool:
+        return self._now_s - self._last_clip_s <= 0.5
