@@ -26,6 +26,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "config_cmd",
     "listen",
     "devices",
+    "targets",
     "bench",
 )
 

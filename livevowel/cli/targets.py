@@ -1,0 +1,168 @@
+"""``livevowel targets``: list, show and check vowel target sets.
+
+Other commands that take a target set should call
+:func:`add_targets_option` in their ``configure`` and
+:func:`livevowel.targets.load_target_set` on the value, so every command
+accepts a shipped set's name or the path of a YAML file the same way.
+"""
+
+from __future__ import annotations
+
+import argparse
+
+NAME = "targets"
+SUMMARY = "list, show and check vowel target sets"
+DESCRIPTION = """\
+Work with target sets: the vowel targets (centre and region in the F1-F2
+plane) that a speaker aims at. A set is named by a shipped set's name (see
+'livevowel targets list') or by the path of a YAML file of your own; the
+file format is described in targets/README.md.
+
+  livevowel targets list                 shipped sets, one a line
+  livevowel targets show SET             table of a set's targets
+  livevowel targets check FILE...        validate set files
+
+Values in the shipped sets come from published tables; sets whose numbers
+were entered from memory say so, and so does an assumed spread."""
+EPILOG = """\
+exit status: 0 on success, 2 when a set is missing or invalid.
+
+examples:
+  livevowel targets show gae-women
+  livevowel targets show gae-men --profile me.yaml --scale bark
+  livevowel targets check my-accent.yaml"""
+
+
+def add_targets_option(parser: argparse.ArgumentParser, *, default: str | None = None,
+                       required: bool = False, flag: str = "--targets") -> None:
+    """Add ``--targets SET`` (a shipped set's name or a YAML path) to a command's parser.
+
+    Read the value with :func:`livevowel.targets.load_target_set`.
+    """
+    extra = f" (default: {default})" if default else ""
+    parser.add_argument(flag, metavar="SET", default=default, required=required,
+                        help=f"target set: a shipped set's name or a YAML file{extra}; "
+                             "see 'livevowel targets list'")
+
+
+def configure(parser: argparse.ArgumentParser) -> None:
+    sub = parser.add_subparsers(dest="action", metavar="ACTION", title="actions")
+    sub.required = True
+    p = sub.add_parser("list", help="list the shipped target sets",
+                       description="List the shipped target sets: name, speaker group, number of "
+                                   "targets, whether values were entered from memory, and title.")
+    p.add_argument("--paths", action="store_true", help="print each set's file path instead of its title")
+    p = sub.add_parser("show", help="print a set's targets as a table",
+                       description="Print a target set's description and a table of its targets: id, IPA, "
+                                   "example words, F1, F2, F3, spread (SDs and correlation) and hit size.")
+    p.add_argument("set", metavar="SET", help="a shipped set's name or a YAML file")
+    p.add_argument("--profile", metavar="FILE", help="map the set into this speaker profile's space first")
+    p.add_argument("--scale", choices=("hz", "bark", "erb", "mel"), default="hz",
+                   help="units for the F1-F3 columns (default hz; spreads stay in Hz)")
+    p = sub.add_parser("check", help="validate target set files",
+                       description="Load each set and report 'ok' or the first problem found (file, target "
+                                   "id and key). Exit status 2 if any set fails.")
+    p.add_argument("files", metavar="FILE", nargs="+", help="YAML files (or shipped set names)")
+
+
+def run(args: argparse.Namespace) -> int:
+    return {"list": _list, "show": _show, "check": _check}[args.action](args)
+
+
+def _list(args: argparse.Namespace) -> int:
+    from livevowel.errors import UserError
+    from livevowel.targets import load_target_set, shipped_sets, targets_dir
+
+    sets = shipped_sets()
+    if not sets:
+        raise UserError(f"no target sets found in {targets_dir()}")
+    rows = []
+    for name, path in sets.items():
+        try:
+            ts = load_target_set(path)
+        except UserError as exc:
+            rows.append((name, "?", "?", "?", f"INVALID: {exc}"))
+            continue
+        rows.append((name, ts.group, str(len(ts)), "yes" if ts.from_memory else "no",
+                     str(path) if args.paths else ts.title))
+    _table(("NAME", "GROUP", "N", "MEMORY", "PATH" if args.paths else "TITLE"), rows, right={2})
+    return 0
+
+
+def _show(args: argparse.Namespace) -> int:
+    import textwrap
+
+    from livevowel.dsp.scales import SCALE_UNITS, scale_by_name
+    from livevowel.targets import load_target_set
+
+    ts = load_target_set(args.set)
+    if args.profile:
+        from livevowel.profile import load_profile
+
+        prof = load_profile(args.profile)
+        tr = prof.transform_for(ts)
+        ts = prof.map_set(ts)
+        mapped = (f"mapped to speaker {prof.speaker_id} ({tr.method}, factors "
+                  f"F1 x{tr.factors[0]:.3f}, F2 x{tr.factors[1]:.3f}, F3 x{tr.factors[2]:.3f})")
+    else:
+        mapped = None
+    fwd, _ = scale_by_name(args.scale)
+    unit = SCALE_UNITS[args.scale]
+    wrap = lambda label, text: textwrap.fill(  # noqa: E731
+        text, width=78, initial_indent=f"{label:<9}", subsequent_indent=" " * 9)
+    print(wrap("set", f"{ts.id}: {ts.title}"))
+    print(wrap("accent", ts.accent))
+    print(wrap("group", ts.group))
+    print(wrap("source", ts.source + (f" ({ts.source_table})" if ts.source_table else "")))
+    if ts.from_memory:
+        print(wrap("", "Values entered from memory: check them against the source."))
+    if ts.spread_assumption:
+        print(wrap("spread", ts.spread_assumption))
+    if ts.notes:
+        print(wrap("notes", ts.notes))
+    if mapped:
+        print(wrap("profile", mapped))
+    print(wrap("hit", f"default hit size {ts.default_hit_size_sd:g} SD; the closeness score is 50 "
+                      "on the edge of a region and 100 at its centre"))
+    print()
+    digits = 0 if args.scale in ("hz", "mel") else 2
+
+    def num(v):
+        return "-" if v is None else f"{float(fwd(v)):.{digits}f}"
+
+    rows = [(t.id, t.ipa, ", ".join(t.words), num(t.f1_hz), num(t.f2_hz), num(t.f3_hz),
+             t.spread_label(), f"{t.hit_size_sd:g}") for t in ts.targets]
+    _table(("ID", "IPA", "WORDS", f"F1 {unit}", f"F2 {unit}", f"F3 {unit}", "SPREAD (Hz)", "HIT SD"),
+           rows, right={3, 4, 5, 7})
+    return 0
+
+
+def _check(args: argparse.Namespace) -> int:
+    import sys
+
+    from livevowel.errors import UserError
+    from livevowel.targets import load_target_set
+
+    status = 0
+    for spec in args.files:
+        try:
+            ts = load_target_set(spec)
+        except UserError as exc:
+            print(f"livevowel targets check: {exc}", file=sys.stderr)
+            status = 2
+            continue
+        notes = []
+        if ts.from_memory:
+            notes.append("values from memory")
+        if ts.spread_assumption:
+            notes.append("assumed spread")
+        extra = f"; {', '.join(notes)}" if notes else ""
+        print(f"{spec}: ok ({len(ts)} targets, {ts.group}, {ts.units}{extra})")
+    return status
+
+
+def _table(header, rows, *, right=frozenset()) -> None:
+    widths = [max(len(str(x)) for x in col) for col in zip(header, *rows)]
+    for row in (header, *rows):
+        cells = [str(c).rjust(w) if i in right else str(c).ljust(w) for i, (c, w) in enumerate(zip(row, widths))]
+        print("  ".join(cells).rstrip())
