@@ -213,7 +213,6 @@ def levinson_durbin(r) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         acc = r[..., i] + np.sum(a[..., 1:i] * r[..., i - 1:0:-1], axis=-1)
         ok = err > tiny * 1e10
         k = np.where(ok, -acc / np.where(ok, err, 1.0), 0.0)
-        k = np.clip(k, -1.0, 1.0)
         prev = a[..., 1:i].copy()
         a[..., 1:i] = prev + k[..., None] * prev[..., ::-1]
         a[..., i] = k
@@ -226,7 +225,7 @@ def levinson_durbin(r) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 # Burg
 
 
-def burg(frames, *, order: int) -> tuple[np.ndarray, np.ndarray]:
+def burg(frames, *, order: int, return_reflection: bool = False):
     """Burg's maximum-entropy linear prediction, batched over frames.
 
     Reflection coefficients minimise the sum of forward and backward
@@ -247,6 +246,9 @@ def burg(frames, *, order: int) -> tuple[np.ndarray, np.ndarray]:
     err : array (n_frames,)
         Mean forward-backward prediction error power of the last stage
         (squared amplitude units).
+    k : array (n_frames, p)
+        Reflection coefficients, only with ``return_reflection=True``
+        (|k| <= 1 by the Cauchy-Schwarz inequality).
     """
     x = _frames_2d(frames)
     order = _check_order(order, x.shape[1])
@@ -256,19 +258,22 @@ def burg(frames, *, order: int) -> tuple[np.ndarray, np.ndarray]:
     f = x[:, 1:].copy()   # forward error, aligned at n = 1..N-1
     b = x[:, :-1].copy()  # backward error, delayed one sample
     err = np.mean(x * x, axis=1)
+    refl = np.zeros((n_frames, order))
     for i in range(1, order + 1):
         num = -2.0 * np.einsum("ij,ij->i", f, b)
         den = np.einsum("ij,ij->i", f, f) + np.einsum("ij,ij->i", b, b)
         ok = den > 0
         k = np.where(ok, num / np.where(ok, den, 1.0), 0.0)
-        k = np.clip(k, -1.0, 1.0)
         prev = a[:, 1:i].copy()
         a[:, 1:i] = prev + k[:, None] * prev[:, ::-1]
         a[:, i] = k
+        refl[:, i - 1] = k
         err = err * (1.0 - k * k)
         f, b = f + k[:, None] * b, b + k[:, None] * f
         f = f[:, 1:]
         b = b[:, :-1]
+    if return_reflection:
+        return a, err, refl
     return a, err
 
 
@@ -312,7 +317,7 @@ def ste_weights(frames, *, order: int, weight_window: int) -> np.ndarray:
 
 
 def weighted_lpc(frames, *, order: int, weight_window: int | None = None, rate_hz: float | None = None,
-                 stabilized: bool = True, window=None) -> tuple[np.ndarray, np.ndarray]:
+                 stabilized: bool = True, window=None, weights=None) -> tuple[np.ndarray, np.ndarray]:
     """Weighted linear prediction (WLP) and its stabilised form (SWLP).
 
     Minimises the weighted prediction error ``sum_n w[n] e[n]^2`` over
@@ -326,11 +331,18 @@ def weighted_lpc(frames, *, order: int, weight_window: int | None = None, rate_h
     Plain WLP (``stabilized=False``) solves the normal equations
     ``R a = -r`` with ``R[i, k] = sum_n w[n] x[n-i] x[n-k]``; its filter is
     not guaranteed stable. SWLP (``stabilized=True``, default; Magi,
-    Pohjalainen, Bäckström & Alku 2009) builds the correlation matrix as
-    ``Y^T Y`` from ``y_0[n] = sqrt(w[n]) x[n]`` and
-    ``y_{k+1}[n] = b[n] y_k[n - 1]`` with ``b[n] = sqrt(w[n] / w[n-1])``
-    where ``w[n] <= w[n-1]`` and 1 otherwise; the delay-and-weight operator
-    then has norm <= 1 and every root of ``A(z)`` lies inside the unit circle.
+    Pohjalainen, Bäckström & Alku 2009) replaces the lagged, weighted
+    columns by columns generated with a weighted shift whose gains never
+    exceed 1, so the operator is a contraction and every root of ``A(z)``
+    lies inside the unit circle (the zeros of such a predictor lie in the
+    numerical range of the operator; Delsarte, Genin & Kamp 1978). Here the
+    recursion runs from the most delayed column: ``u_0[n] = sqrt(w[n])
+    x[n-p]``, ``u_{j+1}[n] = c[n] u_j[n+1]`` with ``c[n] = min(1,
+    sqrt(w[n] / w[n+1]))``, and ``a_k`` multiplies ``u_{p-k}``, so the
+    prediction polynomial is monic in the operator and the stability
+    argument applies as stated. ``u_j[n]`` equals the WLP column
+    ``sqrt(w[n]) x[n-p+j]`` wherever the weights rise; where they fall the
+    lagged samples keep less weight.
 
     Frame edges: the weights rise from ~0 over the first M samples of the
     frame (no energy "before" the frame is seen), which acts as a short
@@ -355,6 +367,10 @@ def weighted_lpc(frames, *, order: int, weight_window: int | None = None, rate_h
         SWLP (True) or plain WLP (False).
     window : None, str or array
         Optional analysis window applied before weighting.
+    weights : array (n_frames, N + p) or (N + p,), optional
+        Use these positive weights instead of the short-time energy (with
+        all weights equal, WLP and SWLP reduce to the autocorrelation method
+        with a rectangular window).
 
     Returns
     -------
@@ -376,19 +392,33 @@ def weighted_lpc(frames, *, order: int, weight_window: int | None = None, rate_h
     out_err = np.zeros(n_frames)
     # Chunk over frames to bound the (chunk, p + 1, N + p) work array.
     chunk = max(1, int(4_000_000 // ((order + 1) * length)))
+    if weights is not None:
+        wts = np.asarray(weights, dtype=np.float64)
+        if wts.ndim == 1:
+            wts = np.broadcast_to(wts, (n_frames, wts.shape[0]))
+        if wts.shape != (n_frames, length):
+            raise ValueError(f"weights must have shape ({n_frames}, {length}) (frames x N + order), got {wts.shape}")
+        if not np.all(np.isfinite(wts)) or np.any(wts <= 0):
+            raise ValueError("weights must be finite and positive")
     for s in range(0, n_frames, chunk):
         xs = x[s : s + chunk]
-        w = ste_weights(xs, order=order, weight_window=weight_window)
+        if weights is None:
+            w = ste_weights(xs, order=order, weight_window=weight_window)
+        else:
+            w = wts[s : s + chunk]
         xp = np.zeros((xs.shape[0], length))
         xp[:, :n] = xs
         y = np.empty((xs.shape[0], order + 1, length))
         if stabilized:
-            ratio = np.ones_like(w)
-            ratio[:, 1:] = np.sqrt(np.minimum(w[:, 1:] / w[:, :-1], 1.0))
-            y[:, 0] = np.sqrt(w) * xp
-            for k in range(order):
-                y[:, k + 1, 0] = 0.0
-                y[:, k + 1, 1:] = ratio[:, 1:] * y[:, k, :-1]
+            # u_0[n] = sqrt(w[n]) x[n - p]; u_{j+1}[n] = c[n] u_j[n + 1] with
+            # c[n] = min(1, sqrt(w[n] / w[n + 1])); column k (coefficient a_k) is u_{p-k}.
+            xd = np.zeros((xs.shape[0], length))
+            xd[:, order:] = xs
+            c = np.sqrt(np.minimum(w[:, :-1] / w[:, 1:], 1.0))
+            y[:, order] = np.sqrt(w) * xd
+            for k in range(order, 0, -1):
+                y[:, k - 1, -1] = 0.0
+                y[:, k - 1, :-1] = c * y[:, k, 1:]
         else:
             sw = np.sqrt(w)
             for k in range(order + 1):
