@@ -282,6 +282,10 @@ class Target:
             self.lexical_set is not None and key.upper() == self.lexical_set.upper())
 
 
+def _strip_length(ipa: str) -> str:
+    return ipa.replace("ː", "").replace("ˑ", "").strip()
+
+
 def _polygon_gauge(poly: np.ndarray, centre: np.ndarray, d1, d2) -> np.ndarray:
     """Radial distance of offsets (d1, d2) from ``centre`` relative to the polygon edge.
 
@@ -384,7 +388,11 @@ class TargetSet:
         return tuple(t.id for t in self.targets)
 
     def find(self, label: str) -> Target | None:
-        """Target whose id, IPA symbol or lexical set is ``label`` (id first), or None."""
+        """Target whose id, IPA symbol or lexical set is ``label``, or None.
+
+        Ids are tried first; then IPA symbols and lexical sets; then IPA with
+        length marks ignored (``"i"`` finds ``"iː"``) when that is unambiguous.
+        """
         key = str(label).strip()
         for t in self.targets:
             if t.id == key.lower():
@@ -392,7 +400,9 @@ class TargetSet:
         for t in self.targets:
             if t.matches(key):
                 return t
-        return None
+        base = _strip_length(key)  # "i" finds "iː" when the set marks length
+        hits = [t for t in self.targets if _strip_length(t.ipa) == base]
+        return hits[0] if len(hits) == 1 else None
 
     def get(self, key: str) -> Target:
         """Target by id (or IPA symbol or lexical set); UserError if there is none."""
@@ -515,11 +525,14 @@ class _DuplicateKey(yaml.YAMLError):
         self.key, self.line = key, line
 
 
-class _StrictLoader(yaml.SafeLoader):
-    """Safe YAML loader that refuses duplicate keys (plain YAML keeps the last one silently)."""
+class _StrictLoader(getattr(yaml, "CSafeLoader", yaml.SafeLoader)):  # type: ignore[misc]
+    """Safe YAML loader (libyaml when present) that refuses duplicate keys.
+
+    Plain YAML keeps the last of two equal keys silently.
+    """
 
 
-def _construct_mapping(loader: yaml.SafeLoader, node: yaml.MappingNode, deep: bool = False):
+def _construct_mapping(loader, node: yaml.MappingNode, deep: bool = False):
     seen = set()
     for key_node, _ in node.value:
         key = loader.construct_object(key_node, deep=True)

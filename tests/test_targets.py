@@ -324,6 +324,24 @@ def test_cli_list_show_check(tmp_path, capsys):
     assert "no target set 'nope'" in capsys.readouterr().err
 
 
+def test_find_ignores_length_marks_when_unambiguous():
+    ts = load_target_set("ssbe-men")
+    assert ts.get("i").id == "fleece" and ts.get("iː").id == "fleece" and ts.get("ɜ").id == "nurse"
+    assert ts.find("ə") is None
+
+
+def test_cli_show_with_profile(tmp_path, capsys):
+    from livevowel.profile import CalibrationToken, SpeakerProfile
+
+    toks = [CalibrationToken("i", 310, 2790), CalibrationToken("ɑ", 850, 1220), CalibrationToken("u", 370, 950)]
+    path = SpeakerProfile.calibrate("W9", toks, "gae-pb-men", voice_group="adult_female").save(tmp_path / "w9.yaml")
+    assert main(["targets", "show", "gae-pb-men", "--profile", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "mapped to speaker W9" in out and "nearey-shared" in out
+    row = next(line for line in out.splitlines() if line.startswith("fleece"))
+    assert "314" in row  # 270 Hz x 1.1615 (shared factor of the three P&B corner vowels)
+
+
 def test_add_targets_option():
     import argparse
 
