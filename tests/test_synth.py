@@ -10,6 +10,7 @@ absolute dB ratio of consecutive amplitudes; common practice, from memory).
 
 from __future__ import annotations
 
+import functools
 from dataclasses import replace
 
 import numpy as np
@@ -350,11 +351,16 @@ def test_deterministic_for_a_seed():
     assert not np.array_equal(a, c)
 
 
-@settings(max_examples=30, deadline=None)
+@functools.lru_cache(maxsize=None)
+def _whole_glide(rate: float):
+    return render(GLIDE, rate_hz=rate, seed=7)
+
+
+@settings(max_examples=25, deadline=None)
 @given(st.lists(st.integers(min_value=1, max_value=900), min_size=1, max_size=60),
        st.sampled_from([8000.0, 16000.0, 22050.0, 48000.0]))
 def test_block_rendering_equals_whole(blocks, rate):
-    whole, truth = render(GLIDE, rate_hz=rate, seed=7)
+    whole, truth = _whole_glide(rate)
     voice = KlattVoice(GLIDE, rate_hz=rate, seed=7)
     parts = []
     i = 0
@@ -439,3 +445,35 @@ def test_add_noise_reaches_requested_snr():
     assert default.shape == y.shape and not np.array_equal(default, y)
     with pytest.raises(ValueError):
         add_noise(np.zeros(100), snr_db=10.0, seed=0)
+
+
+# --------------------------------------------------------- live extension
+def test_extend_while_rendering_equals_rendering_the_longer_schedule():
+    rate = 16000.0
+    head = Schedule(GLIDE.segments[:3], jitter_pct=0.8, shimmer_db=0.3, aspiration_db=-25.0)
+    tail = GLIDE.segments[3:]
+    full, truth = render(replace(head, segments=head.segments + tail), rate_hz=rate, seed=2)
+    voice = KlattVoice(head, rate_hz=rate, seed=2)
+    first = voice.render(int(0.5 * rate))          # well before the end of head (0.8 s)
+    voice.extend(tail)
+    rest = voice.render(len(full) - len(first))
+    np.testing.assert_array_equal(np.concatenate([first, rest]), full)
+    np.testing.assert_array_equal(voice.truth.period_starts_s, truth.period_starts_s)
+
+
+def test_extend_after_the_end_inserts_silence_and_keeps_truth():
+    rate = 16000.0
+    one = Schedule((Segment(0.2, "voiced", 120.0, formants_hz=(730.0, 1090.0, 2440.0)),))
+    voice = KlattVoice(one, rate_hz=rate)
+    voice.render(int(0.5 * rate))                  # 0.3 s past the end
+    voice.extend([Segment(0.2, "voiced", 140.0, formants_hz=(270.0, 2290.0, 3010.0))])
+    y = voice.render(int(0.2 * rate))
+    truth = voice.truth
+    got = truth.at(np.array([0.1, 0.35, 0.6]))
+    np.testing.assert_array_equal(got["voiced"], [True, False, True])
+    assert got["f2_hz"][2] == 2290.0
+    assert truth.duration_s == pytest.approx(0.7)
+    assert np.std(y) > 0
+    starts = truth.period_starts_s
+    assert not np.any((starts > 0.21) & (starts < 0.5))
+    assert starts[-1] >= 0.5

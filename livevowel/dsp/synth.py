@@ -42,6 +42,7 @@ fixed, rate-independent gain; other vowels and voices differ by several dB).
 
 from __future__ import annotations
 
+import bisect
 import math
 from dataclasses import dataclass, field, replace
 from typing import Sequence
@@ -250,6 +251,10 @@ class Schedule:
         0.45 x rate is left out at that rate; an explicit one raises.
     update_s : float
         Interval of resonator coefficient updates in seconds (0.0002..0.005).
+    ramp_s : float
+        Voicing onset and offset ramps (raised cosine, seconds, 0..0.1) at
+        the edges of each voiced stretch that borders silence or noise; the
+        pulse amplitude is scaled by the ramp at the pulse's flow peak.
     """
 
     segments: tuple[Segment, ...]
@@ -263,6 +268,7 @@ class Schedule:
     b4_hz: float | None = None
     b5_hz: float | None = None
     update_s: float = 0.001
+    ramp_s: float = 0.0
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "segments", tuple(self.segments))
@@ -324,6 +330,9 @@ class _Plan:
         if not 0.0002 <= upd <= 0.005:
             raise ScheduleError(f"update_s must be 0.0002..0.005 s, got {upd:g}")
         self.chunk = max(1, int(round(upd * rate_hz)))
+        self.ramp_s = _finite(sch.ramp_s, "ramp_s")
+        if not 0.0 <= self.ramp_s <= 0.1:
+            raise ScheduleError(f"ramp_s must be 0..0.1 s, got {self.ramp_s:g}")
 
         limit = _MAX_FORMANT_FRACTION * rate_hz
         d4, d5 = VOICE_GROUPS[sch.voice]
@@ -431,10 +440,19 @@ class _Plan:
         nxt = np.concatenate([has_formants[1:], [False]])
         self.trans = np.where(nxt, trans, 0.0)
         self.linear = linear
-        self.gain = 10.0 ** (level / 20.0)
+        self.level_db = level
         self.labels = tuple(s.label for s in segs)
         voiced_idx = np.flatnonzero(kinds == _VOICED)
         self.voiced_starts = self.edges[voiced_idx]
+        # voiced stretches (runs of voiced segments), for the ramps
+        v = kinds == _VOICED
+        run_start = v & ~np.concatenate([[False], v[:-1]])
+        run_end = v & ~np.concatenate([v[1:], [False]])
+        self.run_starts = self.edges[:-1][run_start].tolist()
+        self.run_ends = self.edges[1:][run_end].tolist()
+        # plain lists for the per-period scalar look-ups
+        self._edges_l = self.edges.tolist()
+        self._kinds_l = kinds.tolist()
 
     # -- parameter tracks (vectorised over times in seconds) ---------------
     def segment_index(self, t: np.ndarray) -> np.ndarray:
@@ -453,23 +471,68 @@ class _Plan:
         w = np.clip((t - t0) / (t1 - t0), 0.0, 1.0)
         return self.f0a[i] + w * (self.f0b[i] - self.f0a[i])
 
+    def _weight(self, t: np.ndarray, i: np.ndarray) -> np.ndarray:
+        """Transition weight 0..1 towards segment i+1 at times t."""
+        tr = self.trans[i]
+        ts = self.edges[i + 1] - tr
+        moving = (tr > 0) & (t > ts) & (i + 1 < len(self.kinds))
+        if not np.any(moving):
+            return np.zeros(len(t))
+        w = np.clip((t - ts) / np.where(tr > 0, tr, 1.0), 0.0, 1.0)
+        w = np.where(self.linear[i], w, 0.5 - 0.5 * np.cos(np.pi * w))
+        return np.where(moving, w, 0.0)
+
     def tract_at(self, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """F1-F3 and B1-B3 (each (len(t), 3), Hz) at times ``t``."""
         t = np.asarray(t, dtype=np.float64)
         i = self.segment_index(t)
         f = self.formants[i]
         b = self.bandwidths[i]
-        tr = self.trans[i]
-        ts = self.edges[i + 1] - tr
-        moving = (tr > 0) & (t > ts) & (i + 1 < len(self.kinds))
-        if np.any(moving):
+        w = self._weight(t, i)
+        if np.any(w > 0):
             j = np.minimum(i + 1, len(self.kinds) - 1)
-            w = np.clip((t - ts) / np.where(tr > 0, tr, 1.0), 0.0, 1.0)
-            w = np.where(self.linear[i], w, 0.5 - 0.5 * np.cos(np.pi * w))
-            w = np.where(moving, w, 0.0)[:, None]
+            w = w[:, None]
             f = f + w * (self.formants[j] - f)
             b = b + w * (self.bandwidths[j] - b)
         return f, b
+
+    def level_at(self, t: np.ndarray) -> np.ndarray:
+        """Source level in dB at times ``t`` (follows the transitions)."""
+        t = np.asarray(t, dtype=np.float64)
+        i = self.segment_index(t)
+        lv = self.level_db[i]
+        w = self._weight(t, i)
+        j = np.minimum(i + 1, len(self.kinds) - 1)
+        return lv + w * (self.level_db[j] - lv)
+
+    # -- scalar look-ups for the glottal period loop -----------------------
+    def _seg(self, s: float) -> int:
+        i = bisect.bisect_right(self._edges_l, s) - 1
+        return min(max(i, 0), len(self._kinds_l) - 1)
+
+    def voiced_at_scalar(self, s: float) -> bool:
+        return 0.0 <= s < self.duration_s and self._kinds_l[self._seg(s)] == _VOICED
+
+    def f0_scalar(self, s: float) -> float:
+        i = self._seg(s)
+        t0, t1 = self._edges_l[i], self._edges_l[i + 1]
+        w = min(max((s - t0) / (t1 - t0), 0.0), 1.0)
+        a, b = float(self.f0a[i]), float(self.f0b[i])
+        return a + w * (b - a)
+
+    def level_scalar(self, s: float) -> float:
+        return float(self.level_at(np.array([s]))[0])
+
+    def ramp_scalar(self, s: float) -> float:
+        """Onset/offset ramp factor 0..1 at time ``s`` inside a voiced stretch."""
+        if self.ramp_s <= 0.0:
+            return 1.0
+        k = bisect.bisect_right(self.run_starts, s) - 1
+        if k < 0:
+            return 0.0
+        x = min((s - self.run_starts[k]) / self.ramp_s, (self.run_ends[k] - s) / self.ramp_s)
+        x = min(max(x, 0.0), 1.0)
+        return 0.5 - 0.5 * math.cos(math.pi * x)
 
     def next_voiced_start(self, t: float) -> float:
         """First voiced-segment start at or after ``t`` (inf if none)."""
@@ -601,6 +664,35 @@ class KlattVoice:
                      np.array(self._p_start), np.array(self._p_len), np.array(self._p_amp),
                      _plan=self._plan)
 
+    def extend(self, segments: Sequence[Segment]) -> None:
+        """Append ``segments`` to the schedule while rendering (live use).
+
+        The result equals rendering the extended schedule from the start when
+        this is called at least one update interval plus the last segment's
+        ``transition_s`` before the current end. Later than that, the last
+        segment gets no transition (it has been rendered without one), and if
+        rendering has already passed the end, a silent segment filling the gap
+        goes first, so :attr:`truth` stays exact either way.
+        """
+        segments = tuple(segments)
+        if not segments:
+            return
+        old = self.schedule
+        p = self._plan
+        now = self._pos / self.rate_hz
+        chunk_start = (self._pos // p.chunk) * p.chunk / self.rate_hz
+        segs = list(old.segments)
+        last = segs[-1]
+        if last.transition_s > 0 and chunk_start + p.chunk / self.rate_hz > p.duration_s - last.transition_s:
+            segs[-1] = replace(last, transition_s=0.0)
+        if now > p.duration_s:
+            segs.append(Segment(now - p.duration_s, "silent"))
+        new = replace(old, segments=tuple(segs) + segments)
+        plan = _Plan(new, self.rate_hz)
+        self.schedule, self._plan = new, plan
+        if not math.isfinite(self._next_start):
+            self._next_start = (self._p_start[-1] + self._p_len[-1]) if self._p_start else 0.0
+
     def render(self, n_samples: int) -> np.ndarray:
         """The next ``n_samples`` samples (float64)."""
         n = int(n_samples)
@@ -688,17 +780,19 @@ class KlattVoice:
         while math.isfinite(self._next_start) and (
                 not self._p_start or self._p_start[-1] + self._p_len[-1] <= t_end):
             s = self._next_start
-            if p.kind_at(np.array([s]))[0] != _VOICED:
+            if not p.voiced_at_scalar(s):
                 self._next_start = p.next_voiced_start(s)
                 continue
             k = len(self._p_start)
             ej, es = self._period_draws(k)
-            f0 = float(p.f0_at(np.array([s]))[0])
-            period = (1.0 / f0) * (1.0 + p.jitter_sigma * float(np.clip(ej, -3.0, 3.0)))
+            f0 = p.f0_scalar(s)
+            period = (1.0 / f0) * (1.0 + p.jitter_sigma * min(max(float(ej), -3.0), 3.0))
             # flow amplitude ~ 1/F0: the excitation RMS (and output level)
             # does not depend on F0
-            amp = float(p.gain[p.segment_index(np.array([s]))[0]]) * _REF_F0_HZ / f0
-            amp *= 10.0 ** (p.shimmer_sigma_db * float(np.clip(es, -3.0, 3.0)) / 20.0)
+            amp = 10.0 ** ((p.level_scalar(s)
+                            + p.shimmer_sigma_db * min(max(float(es), -3.0), 3.0)) / 20.0)
+            amp *= _REF_F0_HZ / f0
+            amp *= p.ramp_scalar(s + period * (1.0 - p.oq / 3.0))   # at the flow peak
             self._p_start.append(s)
             self._p_len.append(period)
             self._p_amp.append(amp)
@@ -737,8 +831,8 @@ class KlattVoice:
         kind = p.kind_at(t)
         noisy = kind == _NOISE
         if np.any(noisy):
-            seg_gain = p.gain[p.segment_index(t)]
-            std = np.where(noisy, seg_gain * _voicing_rms_per_unit(_REF_F0_HZ, p.oq), std)
+            gain = 10.0 ** (p.level_at(t) / 20.0)
+            std = np.where(noisy, gain * _voicing_rms_per_unit(_REF_F0_HZ, p.oq), std)
         if np.any(std > 0.0):
             e += std * self._noise(n0, n)
         return e
