@@ -97,6 +97,19 @@ SCHEMA: dict[str, dict[str, Key]] = {
                             min=0.2, max=30),
         "retry_s": Key(2.0, "seconds between attempts to reopen a lost input device", min=0.2, max=60),
     },
+    "practice": {
+        "hold_ms": Key(250.0, "time the dot must stay inside the target for a hit, milliseconds", min=50, max=3000),
+        "min_confidence": Key(0.4, "frames below this confidence (0..1) show no dot and do not count", min=0, max=1),
+        "trail_ms": Key(300.0, "length of the fading trail behind the dot, milliseconds", min=0, max=2000),
+        "trail": Key(True, "show the trail behind the dot", kind=bool),
+        "units": Key("hz", "grid of the vowel plane: hz or bark", kind=str, choices=("hz", "bark")),
+        "theme": Key("light", "colours: light, dark or contrast (high contrast)", kind=str,
+                     choices=("light", "dark", "contrast")),
+        "large_text": Key(False, "larger text on the practice screen", kind=bool),
+        "tone": Key(True, "play a short quiet tone on each hit (never with SDL_AUDIODRIVER=dummy)", kind=bool),
+        "tone_volume": Key(0.15, "peak level of the hit tone as a fraction of full scale", min=0, max=0.5),
+        "fps": Key(60, "frames per second of the practice screen", kind=int, min=10, max=240),
+    },
 }
 
 

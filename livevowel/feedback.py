@@ -187,6 +187,8 @@ class TargetController:
             raise ValueError(f"no target {current_id!r}; known: {', '.join(ids)}")
         self.locked = locked
         self.version = 0
+        #: Short description for the screen's header ("" for free stepping).
+        self.label = "one target" if locked else ""
 
     @property
     def current(self) -> Any:
@@ -237,6 +239,7 @@ class ScriptedController(TargetController):
             if tid not in ids:
                 raise ValueError(f"timetable names unknown target {tid!r}")
         self._steps = steps
+        self.label = "targets follow the script"
 
     def update(self, time_s: float) -> None:
         want = self._steps[0][1]

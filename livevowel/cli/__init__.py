@@ -27,6 +27,8 @@ COMMAND_MODULES: tuple[str, ...] = (
     "listen",
     "devices",
     "targets",
+    "practice",
+    "demo",
     "bench",
 )
 

@@ -120,8 +120,7 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
     size : (int, int)
         Window size in pixels (resizable).
     fps : int, optional
-        Frame rate (default the screen's option, 60). Headless runs with
-        ``pace`` 0 paint as fast as they can.
+        Frame rate (default the screen's option, 60), headless too.
     show_caution : bool
         Show the first-start caution when it has not been read yet (never headless).
     pace : float
@@ -194,8 +193,7 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
                     break
             if limit_wall is not None and now - t0 > limit_wall:
                 break
-            if not (headless and pace == 0):
-                clock.tick(fps)
+            clock.tick(fps)  # also when headless: sleeping here leaves the CPU to the analysis threads
         if screenshot is not None:
             res.screenshot = save_screenshot(surface, screenshot)
     finally:

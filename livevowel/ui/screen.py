@@ -410,8 +410,9 @@ class PracticeScreen:
             D.blit_text(s, F.text(f"as in  {word}", int(26 * u), th.text), r.right + 18 * u,
                         lay.header.centery + 2 * u, "midleft")
         sub = self.title
-        if self.controller.locked:
-            sub = f"{sub}  ·  one target" if sub else "one target"
+        label = getattr(self.controller, "label", "")
+        if label:
+            sub = f"{sub}  ·  {label}" if sub else label
         if sub:
             D.blit_text(s, F.text(sub, int(16 * u), th.muted_text), hx, lay.header.bottom - 4 * u, "bottomleft")
         pygame.draw.rect(s, th.strip, lay.strip)
