@@ -110,6 +110,24 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "tone_volume": Key(0.15, "peak level of the hit tone as a fraction of full scale", min=0, max=0.5),
         "fps": Key(60, "frames per second of the practice screen", kind=int, min=10, max=240),
     },
+    "attempts": {
+        "min_ms": Key(120.0, "shortest voiced run that counts as an attempt, milliseconds (shorter ones are kept, flagged)",
+                      min=20, max=2000),
+        "hangover_ms": Key(60.0, "unvoiced dip that does not split an attempt, milliseconds", min=0, max=500),
+        "ignore_below_ms": Key(30.0, "voiced blips shorter than this are counted as noise, not attempts, milliseconds",
+                               min=0, max=200),
+        "max_s": Key(8.0, "longest attempt; a longer run is cut there and flagged, seconds", min=1, max=60),
+        "min_level_db": Key(-50.0, "attempts quieter than this median level are flagged too quiet, dBFS",
+                            min=-120, max=0),
+        "min_measured_fraction": Key(0.5, "share of frames that must have F1 and F2 measured (0..1)", min=0, max=1),
+        "steady_min_ms": Key(80.0, "shortest steady stretch the measures are taken over, milliseconds",
+                             min=10, max=1000),
+    },
+    "session": {
+        "clips": Key(True, "save a WAV clip of every attempt in the data folder (turn off for privacy)", kind=bool),
+        "clip_pre_ms": Key(250.0, "audio kept before each attempt in its clip, milliseconds", min=0, max=2000),
+        "clip_post_ms": Key(150.0, "audio kept after each attempt in its clip, milliseconds", min=0, max=2000),
+    },
 }
 
 

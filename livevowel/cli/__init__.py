@@ -29,6 +29,9 @@ COMMAND_MODULES: tuple[str, ...] = (
     "targets",
     "practice",
     "demo",
+    "drill",
+    "sessions",
+    "export",
     "bench",
 )
 

@@ -58,7 +58,7 @@ class Outcome:
         """One line for a log: number, time, prompt, result, measures."""
         a, j = self.attempt, self.judgement
         where = f"{a.start_s:7.2f}-{a.end_s:6.2f} s"
-        what = f"{self.prompt.item.prompt!r}->{self.prompt.target}" if self.prompt else "(no prompt)"
+        what = f"{self.prompt.item.prompt!r}->{self.prompt.target}" if self.prompt else "(between prompts)"
         if self.trial is not None:
             res = "HIT " if self.trial.hit else "miss"
             res += f" {j.closeness:3.0f}"
@@ -67,7 +67,10 @@ class Outcome:
         meas = (f"F1 {a.f1_hz:4.0f} F2 {a.f2_hz:4.0f} Hz" if math.isfinite(a.f1_hz) and math.isfinite(a.f2_hz)
                 else "F1/F2 not measured")
         near = f" sounded like {j.nearest_id}" if j.nearest_id else ""
-        note = "" if self.trial is not None and j.reason == "hit" else f" ({j.reason})"
+        if self.prompt is None:
+            note = " (not counted)"
+        else:
+            note = "" if self.trial is not None and j.reason == "hit" else f" ({j.reason})"
         return f"#{self.number:<3} {where}  {what:<22} {res}  {meas}{near}{note}"
 
 
@@ -279,6 +282,41 @@ class DrillSession:
                                 detail=ev["detail"])
 
 
+def tapped_pipeline(source, *, analysis=None, live=None, queue_size: int = 200_000):
+    """A :class:`~livevowel.audio.pipeline.LivePipeline` that also keeps the raw blocks.
+
+    The blocks (for the attempt clips) are taken with ``take_blocks()`` on
+    the consumer's thread and handed to :meth:`DrillSession.add_audio`; frames
+    come from ``drain()`` as usual. Use it in place of ``LivePipeline`` when
+    running a :class:`DrillSession`, screen or not.
+    """
+    from livevowel.audio.pipeline import LivePipeline
+
+    class TappedPipeline(LivePipeline):
+        def __init__(self, *a, **kw) -> None:
+            super().__init__(*a, **kw)
+            self._taps: deque = deque()
+
+        def on_block(self, block) -> None:  # source thread: keep it cheap
+            self._taps.append(block)
+            super().on_block(block)
+
+        def take_blocks(self) -> list:
+            out = []
+            while self._taps:
+                out.append(self._taps.popleft())
+            return out
+
+    return TappedPipeline(source, settings=analysis, live=live, queue_size=queue_size)
+
+
+def feed(session: DrillSession, pipe) -> list[Outcome]:
+    """Hand a tapped pipeline's new audio and frames to ``session``; returns closed attempts."""
+    for b in pipe.take_blocks():
+        session.add_audio(b.samples, start_s=b.start_time_s, rate_hz=b.rate_hz)
+    return session.add_frames(pipe.drain())
+
+
 def run_headless(session: DrillSession, source, *, analysis=None, live=None, poll_s: float = 0.005,
                  timeout_s: float | None = None) -> SessionSummary:
     """Run ``session`` from ``source`` through the live path until the drill or the input ends.
@@ -299,25 +337,13 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
     -------
     SessionSummary
     """
-    from livevowel.audio.pipeline import LivePipeline
-
-    taps: deque = deque()
-
-    class _Tapped(LivePipeline):
-        def on_block(self, block) -> None:  # source thread: keep it cheap
-            taps.append(block)
-            super().on_block(block)
-
-    pipe = _Tapped(source, settings=analysis, live=live, queue_size=200_000)
+    pipe = tapped_pipeline(source, analysis=analysis, live=live)
     t0 = time.monotonic()
     pipe.start()
     try:
         while True:
             finished = pipe.done
-            while taps:
-                b = taps.popleft()
-                session.add_audio(b.samples, start_s=b.start_time_s, rate_hz=b.rate_hz)
-            session.add_frames(pipe.drain())
+            feed(session, pipe)
             if session.done or finished:
                 break
             if timeout_s is not None and time.monotonic() - t0 > timeout_s:
@@ -325,14 +351,12 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
             time.sleep(poll_s)
     finally:
         pipe.stop()
-    while taps:
-        b = taps.popleft()
-        session.add_audio(b.samples, start_s=b.start_time_s, rate_hz=b.rate_hz)
     if not session.done:
-        session.add_frames(pipe.drain())
+        feed(session, pipe)
     if pipe.error is not None:
         from livevowel.errors import RunFailure
 
+        session.finish()
         raise RunFailure(f"analysis failed: {pipe.error}")
     if pipe.results.dropped:
         session.recorder.event("warning", detail={"message": f"{pipe.results.dropped} frames dropped"})

@@ -479,11 +479,11 @@ def migrate(conn: sqlite3.Connection) -> int:
 
 
 def check_speaker_id(speaker_id: str) -> str:
-    """Validate a pseudonymous speaker id (letters, digits, ``-_.``, 1-32 chars)."""
+    """Validate a pseudonymous speaker id (letters, digits, ``-_.``, 1-40 chars, as profiles)."""
     import re
 
-    if not isinstance(speaker_id, str) or not re.fullmatch(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,31}", speaker_id):
-        raise UserError(f"speaker id {speaker_id!r}: use 1-32 letters, digits, '-', '_' or '.' "
+    if not isinstance(speaker_id, str) or not re.fullmatch(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,39}", speaker_id):
+        raise UserError(f"speaker id {speaker_id!r}: use 1-40 letters, digits, '-', '_' or '.' "
                         "(a pseudonym such as S07, never a name)")
     return speaker_id
 

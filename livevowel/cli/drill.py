@@ -1,0 +1,196 @@
+"""``livevowel drill``: run a drill without a screen, from any source.
+
+The options and the run are also offered as functions
+(:func:`add_drill_options`, :func:`run_drill`) so that ``livevowel practice
+--drill FILE --headless`` can share them.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+NAME = "drill"
+SUMMARY = "run a drill without a screen: prompts, attempts, judgements, the session record"
+DESCRIPTION = """\
+Run a drill (a YAML file, or the id of a shipped drill) with no screen and
+no keys: self-paced, each attempt judged against the prompt's target as it
+closes and saved to the session record with a clip of its audio. The input
+is the microphone, a recording (--source file:PATH, --pace 0 for as fast as
+possible) or the demo voice. At the end a summary of trials, hits and
+accuracy per block and per target is printed.
+
+Speakers appear in the record only under a pseudonymous id (--speaker).
+Local rules on health-data privacy apply to the data folder.
+
+This is a practice and feedback tool, not a diagnostic or medical device."""
+EPILOG = """\
+examples:
+  livevowel drill front-vowels-five-vowel-l1 --speaker S07 --source file:take1.wav --pace 0
+  livevowel drill my-drill.yaml --speaker S07 --data ./clinic-data --no-clips
+  livevowel drill --list"""
+
+
+def add_drill_options(parser: argparse.ArgumentParser, *, file_positional: bool = True) -> None:
+    """Options shared by ``drill`` and ``practice --drill`` (not the input options)."""
+    from livevowel.cli import add_config_option
+
+    if file_positional:
+        parser.add_argument("drill", metavar="FILE", nargs="?",
+                            help="drill file (YAML) or the id of a shipped drill (see --list)")
+        parser.add_argument("--list", action="store_true", help="list the shipped drills and exit")
+    g = parser.add_argument_group("session")
+    g.add_argument("--speaker", metavar="ID", help="pseudonymous speaker id (e.g. S07; never a name)")
+    g.add_argument("--profile", metavar="FILE",
+                   help="speaker profile: judge in the speaker's own space (sets --speaker when not given)")
+    g.add_argument("--voice-group", metavar="G", choices=("adult_male", "adult_female", "child"),
+                   help="voice group to record for a new speaker")
+    g.add_argument("--set", dest="target_set", metavar="SET",
+                   help="target set to use instead of the one the drill names")
+    g.add_argument("--data", metavar="DIR", help="data folder of the session record "
+                   "(default: $LIVEVOWEL_DATA or the user data folder)")
+    g.add_argument("--no-clips", action="store_true", help="do not save audio clips of the attempts")
+    g.add_argument("--no-save", action="store_true", help="keep the session in memory only (nothing is written)")
+    g.add_argument("--pause", metavar="S", type=float,
+                   help="seconds the result shows before the next prompt (default: the drill's pause_s)")
+    g.add_argument("--seed", metavar="N", type=int, help="seed for shuffled blocks that have none (recorded)")
+    g.add_argument("--note", metavar="TEXT", help="a note stored with the session")
+    g.add_argument("--quiet", action="store_true", help="print only the summary")
+    add_config_option(parser)
+
+
+def configure(parser: argparse.ArgumentParser) -> None:
+    from livevowel.audio.options import add_source_options
+
+    add_drill_options(parser)
+    add_source_options(parser)
+
+
+def _print_shipped() -> int:
+    from livevowel.session.drills import load_drill, shipped_drills
+
+    for name in shipped_drills():
+        d = load_drill(name)
+        print(f"{name:<32} {d.title}  [{d.target_set}, {len(d.blocks)} blocks]")
+    return 0
+
+
+def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
+    """Load drill, set, profile and settings; open the record. Returns (session, recorder, extras)."""
+    from livevowel import config
+    from livevowel.errors import UserError
+    from livevowel.session.attempts import AttemptSettings
+    from livevowel.session.drills import check_targets, load_drill, resolve_target_set_ref
+    from livevowel.session.runner import DrillSession
+    from livevowel.session.store import SessionRecorder, check_speaker_id
+    from livevowel.targets import load_target_set
+
+    if not args.drill:
+        raise UserError("name a drill file or shipped drill (see --list)")
+    drill = load_drill(args.drill)
+    settings = config.load(config_file=getattr(args, "config", None))
+    ts = load_target_set(args.target_set or resolve_target_set_ref(drill))
+    check_targets(drill, ts)
+    speaker = args.speaker
+    profile = None
+    if args.profile:
+        from livevowel.profile import load_profile
+
+        profile = load_profile(args.profile)
+        if speaker is not None and speaker != profile.speaker_id:
+            raise UserError(f"--speaker {speaker} does not match the profile's speaker {profile.speaker_id}")
+        speaker = profile.speaker_id
+    if speaker is not None:
+        check_speaker_id(speaker)
+    judged_set = profile.map_set(ts) if profile is not None else ts
+    try:
+        att = AttemptSettings.from_config(settings)
+    except KeyError:  # no attempts section in this build's settings
+        att = AttemptSettings()
+    sess_cfg = settings.values.get("session", {})
+    clips = not args.no_clips and sess_cfg.get("clips", True)
+    rec = SessionRecorder(folder=args.data, clips=clips, memory_only=args.no_save, warn=warn)
+    voice_group = args.voice_group or (profile.voice_group if profile is not None else None)
+    seed = args.seed
+    if seed is None:
+        import secrets
+
+        seed = secrets.randbelow(2**31 - 1)
+    record_settings = {"analysis": settings.values.get("analysis"), "attempts": att.__dict__,
+                       "seed": seed, "pause_s": args.pause, "clips": clips,
+                       "profile": args.profile, "pace": getattr(args, "pace", None)}
+    sid = rec.start(speaker_id=speaker, voice_group=voice_group,
+                    profile=profile.to_dict() if profile is not None else None,
+                    target_set=judged_set.id, drill=drill.id, drill_file=str(drill.path) if drill.path else None,
+                    mode=mode, source=getattr(args, "source", None), settings=record_settings, note=args.note)
+    session = DrillSession(drill, judged_set, rec, mode=mode, attempt_settings=att, pause_s=args.pause, seed=seed,
+                           speaker_space=profile is not None,
+                           clip_pre_s=sess_cfg.get("clip_pre_ms", 250.0) / 1e3,
+                           clip_post_s=sess_cfg.get("clip_post_ms", 150.0) / 1e3)
+    # the seeds actually used by shuffled blocks, for the record
+    return session, rec, {"settings": settings, "session_id": sid, "drill": drill, "target_set": judged_set}
+
+
+def run_drill(args: argparse.Namespace) -> int:
+    """The headless run behind ``livevowel drill`` and ``practice --drill --headless``."""
+    from livevowel.audio.options import source_from_args
+    from livevowel.audio.pipeline import LiveSettings
+    from livevowel.dsp.engine import AnalysisSettings
+    from livevowel.session.runner import run_headless
+
+    def warn(msg: str) -> None:
+        print(f"livevowel {NAME}: warning: {msg}", file=sys.stderr, flush=True)
+
+    session, rec, extra = prepare(args, warn=warn)
+    settings = extra["settings"]
+    quiet = getattr(args, "quiet", False)
+    if not quiet:
+        def show(oc) -> None:
+            print(oc.line(), flush=True)
+
+        session.on_outcome = show
+        d = extra["drill"]
+        where = "memory only" if rec.in_memory else str(rec.folder)
+        print(f"session {extra['session_id']}: drill {d.id} ({d.title}), set {extra['target_set'].id}, "
+              f"record: {where}", flush=True)
+    try:
+        live = LiveSettings.from_config(settings) if "live" in settings.values else LiveSettings()
+    except KeyError:
+        live = LiveSettings()
+    source = source_from_args(args, live=live)
+    interrupted = False
+    try:
+        summary = run_headless(session, source, analysis=AnalysisSettings.from_config(settings), live=live)
+    except KeyboardInterrupt:
+        interrupted = True
+        summary = session.finish()
+    print_summary(summary, session=session, recorder=rec, session_id=extra["session_id"], interrupted=interrupted)
+    rec.close()
+    return 130 if interrupted else 0
+
+
+def print_summary(summary, *, session, recorder, session_id: int, interrupted: bool = False) -> None:
+    """The end-of-session summary (stdout) and any record warning (stderr)."""
+    run = session.run
+    state = "stopped" if interrupted else ("finished" if run.done else "input ended before the drill finished")
+    print(f"\nsession {session_id} {state}")
+    print(summary.format())
+    for st in run.block_states:
+        c = st.counted()
+        crit = "met" if st.criterion_met else "not met"
+        adv = st.block.advance.describe()
+        size = f"{st.hit_size_sd:.2f} SD" if st.hit_size_sd is not None else "target's own"
+        print(f"block {st.index + 1} {st.block.id}: advance rule ({adv}) {crit}; hit size {size}, "
+              f"hold {st.hold_s:.2f} s" + (f", seed {st.seed}" if st.seed is not None else ""))
+        del c
+    if recorder.in_memory:
+        print(f"NOT SAVED: {recorder.warning}", file=sys.stderr)
+    else:
+        print(f"saved in {recorder.folder} (session {session_id}; "
+              f"'livevowel sessions --data {recorder.folder}' lists it)")
+
+
+def run(args: argparse.Namespace) -> int:
+    if args.list:
+        return _print_shipped()
+    return run_drill(args)
