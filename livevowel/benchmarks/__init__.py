@@ -19,7 +19,9 @@ from typing import Callable
 import numpy as np
 
 #: suite name -> module under livevowel.benchmarks, in run order.
-SUITES: dict[str, str] = {}
+SUITES: dict[str, str] = {
+    "display": "display",
+}
 
 
 def percentiles_ms(seconds: "list[float] | np.ndarray") -> dict[str, float]:
