@@ -83,6 +83,15 @@ def test_levinson_matches_solve_toeplitz_on_vowel_like_frames():
         np.testing.assert_allclose(a[i, 1:], ref, rtol=1e-7, atol=1e-9)
 
 
+def test_lpc_autocorrelation_equals_levinson_on_the_same_autocorrelation():
+    rng = np.random.default_rng(9)
+    frames = rng.standard_normal((5, 240))
+    frames[2] = 0.0
+    a = lpc(frames, order=10, method="autocorrelation", window="hamming")
+    ref, _, _ = levinson_durbin(autocorrelation(frames * np.hamming(240), order=10))
+    np.testing.assert_allclose(a, ref, rtol=1e-9, atol=1e-12)
+
+
 def test_levinson_is_batched_over_leading_axes():
     rng = np.random.default_rng(3)
     r = autocorrelation(rng.standard_normal((12, 200)), order=6).reshape(3, 4, 7)

@@ -9,6 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.fft
 
 __all__ = [
     "yin",
@@ -127,11 +128,12 @@ def difference_function(frames, *, max_lag: int, window: int | None = None) -> n
     w = n - max_lag if window is None else int(window)
     if max_lag < 1 or w < 1 or w + max_lag > n:
         raise ValueError(f"need max_lag >= 1, W >= 1 and W + max_lag <= N; got max_lag={max_lag}, W={w}, N={n}")
-    nfft = 1 << int(np.ceil(np.log2(n + w)))
-    spec_full = np.fft.rfft(x[:, : w + max_lag], nfft, axis=1)
-    spec_head = np.fft.rfft(x[:, :w], nfft, axis=1)
-    # c[tau] = sum_j x[j] x[j + tau] for j < W
-    c = np.fft.irfft(spec_full * np.conj(spec_head), nfft, axis=1)[:, : max_lag + 1]
+    # c[tau] = sum_{j<W} x[j] x[j + tau] by circular correlation; a transform of
+    # length >= W + max_lag keeps lags 0..max_lag free of wrap-around.
+    nfft = scipy.fft.next_fast_len(w + max_lag, real=True)
+    spec_full = scipy.fft.rfft(x[:, : w + max_lag], nfft, axis=1)
+    spec_head = scipy.fft.rfft(x[:, :w], nfft, axis=1)
+    c = scipy.fft.irfft(spec_full * np.conj(spec_head), nfft, axis=1)[:, : max_lag + 1]
     sq = np.zeros((n_frames, n + 1))
     sq[:, 1:] = np.cumsum(x * x, axis=1)
     tau = np.arange(max_lag + 1)
