@@ -1,0 +1,124 @@
+"""The display loop, first-start caution, hit tone and the practice command."""
+
+import math
+import os
+
+import numpy as np
+import pytest
+
+pygame = pytest.importorskip("pygame")
+
+from livevowel import CAUTION  # noqa: E402
+from livevowel.dsp.types import Frame  # noqa: E402
+from livevowel.errors import UserError  # noqa: E402
+from livevowel.targets import load_target_set  # noqa: E402
+from livevowel.ui import loop  # noqa: E402
+from livevowel.ui.screen import PracticeScreen, ScreenOptions  # noqa: E402
+from livevowel.ui.sound import HitTone, tone_samples  # noqa: E402
+
+
+class FramesPipeline:
+    """Test double of LivePipeline: hands out prepared frames, a few per drain."""
+
+    def __init__(self, frames, per_drain=3):
+        self.frames = list(frames)
+        self.per_drain = per_drain
+        self.started = self.stopped = False
+        self.paused = False
+
+    def start(self):
+        self.started = True
+
+    def stop(self):
+        self.stopped = True
+
+    def drain(self):
+        out, self.frames = self.frames[:self.per_drain], self.frames[self.per_drain:]
+        return out
+
+    def health(self):
+        return None
+
+    @property
+    def done(self):
+        return not self.frames
+
+
+def frames_at(target, n, t0=0.0):
+    return [Frame(t0 + i * 0.01, True, 120.0, target.f1_hz, target.f2_hz, 2500.0, 80, 100, 150, -20.0, 0.9)
+            for i in range(n)]
+
+
+@pytest.fixture
+def tset():
+    return load_target_set("gae-men")
+
+
+def test_caution_is_shown_once_per_user(tset, tmp_path):
+    assert os.environ["LIVEVOWEL_DATA"].startswith(str(tmp_path))  # conftest isolates the data folder
+    assert loop.caution_needed()
+    loop.init_display(headless=False)  # dummy video driver in tests, but the windowed code path
+    s = PracticeScreen(tset, options=ScreenOptions(fps=240))
+    r = loop.run(s, FramesPipeline(frames_at(tset.get("lot"), 40)), headless=False, keep_open=False)
+    assert s.caution_text == CAUTION
+    assert s.counter.attempts == 0 and r.frames == 0  # nothing scored while the caution is up
+    assert s.handle_event(pygame.event.Event(pygame.KEYDOWN, key=pygame.K_SPACE, unicode=" ", mod=0)) \
+        == "caution-closed"
+    loop.remember_caution()
+    assert not loop.caution_needed()
+    assert (tmp_path / "user-data" / loop.CAUTION_MARKER).is_file()
+    s2 = PracticeScreen(tset, options=ScreenOptions(fps=240))
+    s2.controller.select("lot")
+    loop.run(s2, FramesPipeline(frames_at(tset.get("lot"), 40)), headless=False, keep_open=False)
+    assert s2.caution_text is None and s2.counter.hits == 1
+
+
+def test_headless_loop_feeds_frames_and_saves_screenshot(tset, tmp_path):
+    s = PracticeScreen(tset, options=ScreenOptions(fps=240))
+    s.controller.select("lot")
+    pipe = FramesPipeline(frames_at(tset.get("lot"), 100))
+    shot = tmp_path / "shot.png"
+    r = loop.run(s, pipe, headless=True, seconds=0.6, screenshot=shot)
+    assert pipe.started and pipe.stopped
+    assert 0.6 <= r.input_s < 0.7 and r.frames == pytest.approx(61, abs=3)  # stopped at --seconds
+    assert s.counter.hits == 1 and s.caution_text is None  # headless never shows the caution
+    img = pygame.image.load(str(shot))
+    assert img.get_size() == (1280, 800)
+    with pytest.raises(UserError, match="PNG"):
+        loop.save_screenshot(img, tmp_path / "shot.jpg")
+
+
+def test_hit_tone_is_quiet_short_and_off_without_audio():
+    s = tone_samples(rate_hz=44100, volume=0.15)
+    assert s.dtype == np.int16
+    assert len(s) == round(0.14 * 44100)
+    assert np.max(np.abs(s)) == pytest.approx(0.15 * 32767, abs=2)  # about -16.5 dBFS peak
+    assert abs(int(s[0])) < 50 and abs(int(s[-1])) < 50           # ramped ends, no click
+    with pytest.raises(ValueError):
+        tone_samples(volume=0.9)
+    assert os.environ.get("SDL_AUDIODRIVER") == "dummy"
+    assert not HitTone(enabled=True).enabled
+
+
+def test_practice_command_on_a_recording(tmp_path):
+    sf = pytest.importorskip("soundfile")
+    from livevowel.cli import main
+    from livevowel.dsp.synth import synthesize_vowel
+
+    lot = load_target_set("gae-men").get("lot")
+    x = synthesize_vowel(formants_hz=(lot.f1_hz, lot.f2_hz, 2500.0), f0_hz=110.0, duration_s=1.2, rate_hz=16000,
+                         seed=1)
+    wav = tmp_path / "lot.wav"
+    sf.write(wav, np.concatenate([np.zeros(4000), x, np.zeros(4000)]), 16000)
+    shot = tmp_path / "p.png"
+    code = main(["practice", "--targets", "gae-men", "--target", "lot", "--source", f"file:{wav}", "--pace", "0",
+                 "--headless", "--screenshot", str(shot), "--no-tone"])
+    assert code == 0 and shot.is_file()
+
+
+def test_practice_command_names_an_unknown_target(capsys):
+    from livevowel.cli import main
+
+    assert main(["practice", "--targets", "gae-men", "--target", "nope", "--source", "demo", "--headless"]) == 2
+    err = capsys.readouterr().err
+    assert "nope" in err and "lot" in err
