@@ -20,7 +20,9 @@ import numpy as np
 
 #: suite name -> module under livevowel.benchmarks, in run order.
 SUITES: dict[str, str] = {
+    "dsp": "dsp",
     "display": "display",
+    "synth": "synth",
 }
 
 
