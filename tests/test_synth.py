@@ -351,17 +351,27 @@ def test_deterministic_for_a_seed():
     assert not np.array_equal(a, c)
 
 
+#: A shorter schedule with every kind of stretch, for the block property test.
+SHORT = replace(GLIDE, segments=(
+    Segment(0.05, "silent"),
+    Segment(0.12, "voiced", 130.0, 120.0, (300.0, 870.0, 2240.0), transition_s=0.05),
+    Segment(0.12, "voiced", 450.0, 400.0, (270.0, 2290.0, 3010.0), transition_s=0.03, transition="linear"),
+    Segment(0.05, "noise", formants_hz=(500.0, 1500.0, 2500.0), level_db=-10.0),
+    Segment(0.06, "silent"),
+), ramp_s=0.02)
+
+
 @functools.lru_cache(maxsize=None)
-def _whole_glide(rate: float):
-    return render(GLIDE, rate_hz=rate, seed=7)
+def _whole_short(rate: float):
+    return render(SHORT, rate_hz=rate, seed=7)
 
 
 @settings(max_examples=25, deadline=None)
 @given(st.lists(st.integers(min_value=1, max_value=900), min_size=1, max_size=60),
-       st.sampled_from([8000.0, 16000.0, 22050.0, 48000.0]))
+       st.sampled_from([8000.0, 16000.0, 22050.0]))
 def test_block_rendering_equals_whole(blocks, rate):
-    whole, truth = _whole_glide(rate)
-    voice = KlattVoice(GLIDE, rate_hz=rate, seed=7)
+    whole, truth = _whole_short(rate)
+    voice = KlattVoice(SHORT, rate_hz=rate, seed=7)
     parts = []
     i = 0
     while voice.position < len(whole):

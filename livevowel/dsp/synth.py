@@ -117,6 +117,7 @@ _SILENT, _VOICED, _NOISE = 0, 1, 2
 _REF_F0_HZ = 120.0
 
 _NOISE_PAGE = 4096      # samples per page of per-sample noise
+_TABLE_BATCH = 64       # update intervals per batch of the parameter table
 _PERIOD_PAGE = 256      # periods per page of per-period draws
 
 
@@ -453,6 +454,7 @@ class _Plan:
         # plain lists for the per-period scalar look-ups
         self._edges_l = self.edges.tolist()
         self._kinds_l = kinds.tolist()
+        self._tables: dict[int, dict[str, np.ndarray]] = {}
 
     # -- parameter tracks (vectorised over times in seconds) ---------------
     def segment_index(self, t: np.ndarray) -> np.ndarray:
@@ -504,6 +506,46 @@ class _Plan:
         w = self._weight(t, i)
         j = np.minimum(i + 1, len(self.kinds) - 1)
         return lv + w * (self.level_db[j] - lv)
+
+    # -- per-update-interval table (computed in aligned batches) -----------
+    def chunk_rows(self, c0: int, c1: int) -> dict[str, np.ndarray]:
+        """Parameters and coefficients of update intervals ``c0..c1-1``.
+
+        Keys: ``f``, ``b`` (F1-F3, B1-B3, Hz), ``gain`` (source level as a
+        factor), ``sos`` (m, sections, 6), ``B``, ``C`` (m, sections). Values
+        are computed for whole batches of :data:`_TABLE_BATCH` intervals at
+        fixed positions, so they do not depend on how a render is split.
+        """
+        b0, b1 = c0 // _TABLE_BATCH, (c1 - 1) // _TABLE_BATCH
+        parts = [self._batch(b) for b in range(b0, b1 + 1)]
+        off = c0 - b0 * _TABLE_BATCH
+        if len(parts) == 1:
+            return {k: v[off:off + c1 - c0] for k, v in parts[0].items()}
+        return {k: np.concatenate([q[k] for q in parts])[off:off + c1 - c0] for k in parts[0]}
+
+    def _batch(self, b: int) -> dict[str, np.ndarray]:
+        got = self._tables.get(b)
+        if got is not None:
+            return got
+        c = np.arange(b * _TABLE_BATCH, (b + 1) * _TABLE_BATCH)
+        mid = (c + 0.5) * self.chunk / self.rate_hz
+        f, bw = self.tract_at(mid)
+        gain = 10.0 ** (self.level_at(mid) / 20.0)
+        fa, ba = f, bw
+        if len(self.high_f):
+            fa = np.hstack([f, np.broadcast_to(self.high_f, (len(mid), len(self.high_f)))])
+            ba = np.hstack([bw, np.broadcast_to(self.high_b, (len(mid), len(self.high_b)))])
+        A, B, C = resonator_coefficients(fa, ba, rate_hz=self.rate_hz)
+        sos = np.zeros((len(mid), self.n_sections, 6))
+        sos[:, :, 0] = A
+        sos[:, :, 3] = 1.0
+        sos[:, :, 4] = -B
+        sos[:, :, 5] = -C
+        got = {"f": f, "b": bw, "gain": gain, "sos": sos, "B": B, "C": C}
+        if len(self._tables) >= 16:
+            self._tables.pop(next(iter(self._tables)))
+        self._tables[b] = got
+        return got
 
     # -- scalar look-ups for the glottal period loop -----------------------
     def _seg(self, s: float) -> int:
@@ -585,8 +627,18 @@ class Truth:
         ts = idx / p.rate_hz
         kind = p.kind_at(ts)
         voiced = kind == _VOICED
-        mid = (np.floor(idx / p.chunk) + 0.5) * p.chunk / p.rate_hz
-        f, b = p.tract_at(mid)
+        chunk = np.floor(idx / p.chunk).astype(np.int64)
+        f = np.full((len(t), 3), np.nan)
+        b = np.full((len(t), 3), np.nan)
+        inside = (chunk >= 0) & voiced
+        if np.any(inside):
+            c = chunk[inside]
+            lo, hi = int(c.min()), int(c.max()) + 1
+            uniq = np.unique(c // _TABLE_BATCH)
+            batches = [p._batch(int(u)) for u in uniq]
+            pos = np.searchsorted(uniq, c // _TABLE_BATCH) * _TABLE_BATCH + c % _TABLE_BATCH
+            f[inside] = np.concatenate([q["f"] for q in batches])[pos]
+            b[inside] = np.concatenate([q["b"] for q in batches])[pos]
         f0 = p.f0_at(ts)
         out = {"voiced": voiced, "kind": kind, "f0_hz": np.where(voiced, f0, np.nan)}
         for j in range(3):
@@ -702,34 +754,19 @@ class KlattVoice:
         if n == 0:
             return out
         n0 = self._pos
-        x = self._excitation(n0, n)
         p = self._plan
         L = p.chunk
         c_first = n0 // L
         c_last = (n0 + n - 1) // L
-        starts = np.arange(c_first, c_last + 1) * L
-        need_new = starts >= n0          # chunks whose first sample is in this block
-        new_chunks = np.arange(c_first, c_last + 1)[need_new]
-        if len(new_chunks):
-            mid = (new_chunks + 0.5) * L / p.rate_hz
-            f, b = p.tract_at(mid)
-            if len(p.high_f):
-                f = np.hstack([f, np.broadcast_to(p.high_f, (len(mid), len(p.high_f)))])
-                b = np.hstack([b, np.broadcast_to(p.high_b, (len(mid), len(p.high_b)))])
-            A, B, C = resonator_coefficients(f, b, rate_hz=p.rate_hz)
-            sos_all = np.zeros((len(mid), p.n_sections, 6))
-            sos_all[:, :, 0] = A
-            sos_all[:, :, 3] = 1.0
-            sos_all[:, :, 4] = -B
-            sos_all[:, :, 5] = -C
+        tab = p.chunk_rows(c_first, c_last + 1)
+        x = self._excitation(n0, n, tab["gain"], c_first)
         buf = x.reshape(1, n)            # filtered in place, chunk by chunk
-        k_new = 0
-        for c in range(c_first, c_last + 1):
+        sos, B, C = tab["sos"], tab["B"], tab["C"]
+        for j, c in enumerate(range(c_first, c_last + 1)):
             lo = max(n0, c * L) - n0
             hi = min(n0 + n, (c + 1) * L) - n0
-            if lo + n0 == c * L:
-                self._switch(sos_all[k_new], B[k_new], C[k_new])
-                k_new += 1
+            if lo + n0 == c * L:         # an update interval starts here
+                self._switch(sos[j], B[j], C[j])
             _cascade(self._sos, buf[:, lo:hi], self._zi)
         self._pos = n0 + n
         return buf[0] * _OUTPUT_GAIN
@@ -748,7 +785,7 @@ class KlattVoice:
             z[:, 0] = B * y1 + C * y2
             z[:, 1] = C * y1
         self._coef_b, self._coef_c = B, C
-        self._sos = np.ascontiguousarray(sos)
+        self._sos = sos
 
     def _noise(self, n0: int, n: int) -> np.ndarray:
         """White N(0,1) noise for samples n0..n0+n-1 (random access by page)."""
@@ -798,42 +835,46 @@ class KlattVoice:
             self._p_amp.append(amp)
             self._next_start = s + period
 
-    def _excitation(self, n0: int, n: int) -> np.ndarray:
+    def _excitation(self, n0: int, n: int, chunk_gain: np.ndarray, c_first: int) -> np.ndarray:
+        """Source samples n0..n0+n-1: radiated KLGLOTT88 voicing plus noise."""
         p = self._plan
         fs = p.rate_hz
         t = np.arange(n0, n0 + n) / fs
-        self._grow_periods(float(t[-1]))
+        t_first, t_last = n0 / fs, (n0 + n - 1) / fs
+        self._grow_periods(t_last)
         # drop periods that ended before this block
         while (self._live < len(self._p_start)
-               and self._p_start[self._live] + self._p_len[self._live] <= t[0]):
+               and self._p_start[self._live] + self._p_len[self._live] <= t_first):
             self._live += 1
-        g = np.array(self._p_start[self._live:])
-        T = np.array(self._p_len[self._live:])
-        amp = np.array(self._p_amp[self._live:])
         u = np.zeros(n)
-        std = np.zeros(n)
-        if len(g):
+        std = None
+        if self._live < len(self._p_start):
+            g = np.array(self._p_start[self._live:])
+            T = np.array(self._p_len[self._live:])
+            amp = np.array(self._p_amp[self._live:])
             k = np.searchsorted(g, t, side="right") - 1
             ok = k >= 0
-            kk = np.where(ok, k, 0)
-            x = t - g[kk]
-            ok &= x < T[kk]
-            Tk, ak = T[kk], amp[kk]
+            k[~ok] = 0
+            Tk, ak = T[k], amp[k]
+            x = t - g[k]
+            ok &= x < Tk                 # inside a glottal period
             tau = (x - (1.0 - p.oq) * Tk) / (p.oq * Tk)
-            u = np.where(ok, ak * klglott88_flow(tau), 0.0)
+            tau = np.where(ok & (tau >= 0.0), tau, 0.0)     # open phase only
+            u = ak * 6.75 * tau * tau * (1.0 - tau)        # KLGLOTT88 flow
             if p.aspiration_gain > 0.0:
                 std = np.where(ok, p.aspiration_gain * ak * _voicing_rms_per_unit(1.0 / Tk, p.oq), 0.0)
         e = np.empty(n)
         e[0] = u[0] - self._u_prev
-        e[1:] = np.diff(u)
+        e[1:] = u[1:] - u[:-1]
         e *= fs
         self._u_prev = float(u[-1])
-        kind = p.kind_at(t)
-        noisy = kind == _NOISE
-        if np.any(noisy):
-            gain = 10.0 ** (p.level_at(t) / 20.0)
-            std = np.where(noisy, gain * _voicing_rms_per_unit(_REF_F0_HZ, p.oq), std)
-        if np.any(std > 0.0):
+        s0, s1 = p._seg(t_first), p._seg(t_last)
+        if t_first < p.duration_s and _NOISE in p._kinds_l[s0:s1 + 1]:
+            noisy = p.kind_at(t) == _NOISE
+            gain = chunk_gain[np.arange(n0, n0 + n) // p.chunk - c_first]
+            level = gain * _voicing_rms_per_unit(_REF_F0_HZ, p.oq)
+            std = np.where(noisy, level, 0.0 if std is None else std)
+        if std is not None:
             e += std * self._noise(n0, n)
         return e
 
