@@ -181,3 +181,23 @@ def test_load_profile_errors_name_the_key(tmp_path, edit, needle):
 def test_calibration_token_checks_numbers():
     with pytest.raises(UserError, match="f2_hz must be a positive number"):
         CalibrationToken("i", 300, float("nan"))
+
+
+def test_cli_calibrate_creates_and_updates(tmp_path, capsys):
+    from livevowel.cli import main
+
+    p = tmp_path / "w.yaml"
+    corner = ["--token", "i=310,2790", "--token", "ɑ=850,1220,2810", "--token", "u=370,950"]
+    assert main(["targets", "calibrate", str(p), *corner]) == 2  # no speaker/group/set for a new file
+    assert "give --speaker, --group and --set" in capsys.readouterr().err
+    assert main(["targets", "calibrate", str(p), "--speaker", "W1", "--group", "adult_female",
+                 "--set", "gae-pb-men", *corner]) == 0
+    out = capsys.readouterr().out
+    assert "created for speaker W1" in out and "nearey-shared" in out and "x1.161" in out
+    assert main(["targets", "calibrate", str(p), "--token", "ɛ=610,2330", "--token", "ʊ=470,1160"]) == 0
+    assert "updated" in capsys.readouterr().out
+    prof = load_profile(p)
+    assert len(prof.tokens) == 5 and prof.transform.method == "nearey-per-formant"
+    assert prof.tokens[1].f3_hz == 2810.0 and prof.tokens[0].time
+    assert main(["targets", "calibrate", str(p), "--token", "i=310"]) == 2
+    assert "expected VOWEL=F1,F2" in capsys.readouterr().err

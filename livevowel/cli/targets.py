@@ -21,6 +21,7 @@ file format is described in targets/README.md.
   livevowel targets list                 shipped sets, one a line
   livevowel targets show SET             table of a set's targets
   livevowel targets check FILE...        validate set files
+  livevowel targets calibrate PROFILE    make or update a speaker profile
 
 Values in the shipped sets come from published tables; sets whose numbers
 were entered from memory say so, and so does an assumed spread."""
@@ -30,7 +31,9 @@ exit status: 0 on success, 2 when a set is missing or invalid.
 examples:
   livevowel targets show gae-women
   livevowel targets show gae-men --profile me.yaml --scale bark
-  livevowel targets check my-accent.yaml"""
+  livevowel targets check my-accent.yaml
+  livevowel targets calibrate s07.yaml --speaker S07 --group adult_female \\
+      --set gae-men --token i=310,2790 --token ɑ=850,1220 --token u=370,950"""
 
 
 def add_targets_option(parser: argparse.ArgumentParser, *, default: str | None = None,
@@ -63,10 +66,27 @@ def configure(parser: argparse.ArgumentParser) -> None:
                        description="Load each set and report 'ok' or the first problem found (file, target "
                                    "id and key). Exit status 2 if any set fails.")
     p.add_argument("files", metavar="FILE", nargs="+", help="YAML files (or shipped set names)")
+    p = sub.add_parser(
+        "calibrate", help="make or update a speaker profile from measured vowels",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        description="Make a speaker profile from calibration vowels measured in Hz, or add vowels to an\n"
+                    "existing one, and print the transform. Give at least /i/, /a/ or /ɑ/, and /u/;\n"
+                    "with five or more different vowels the transform has one factor per formant.\n"
+                    "Each --token is VOWEL=F1,F2[,F3] where VOWEL is a target id, IPA symbol or\n"
+                    "lexical set of the reference set. The file is written atomically.")
+    p.add_argument("profile", metavar="PROFILE", help="profile YAML file (created when missing)")
+    p.add_argument("--token", metavar="VOWEL=F1,F2[,F3]", action="append", required=True,
+                   help="one measured vowel in Hz (repeat for each)")
+    add_targets_option(p, flag="--set")
+    p.add_argument("--speaker", metavar="ID", help="pseudonymous speaker code (new profile)")
+    p.add_argument("--group", choices=("adult_male", "adult_female", "child", "any"),
+                   help="the speaker's voice group (new profile)")
+    p.add_argument("--method", choices=("auto", "nearey-shared", "nearey-per-formant"), default=None,
+                   help="transform (default auto, or the profile's own)")
 
 
 def run(args: argparse.Namespace) -> int:
-    return {"list": _list, "show": _show, "check": _check}[args.action](args)
+    return {"list": _list, "show": _show, "check": _check, "calibrate": _calibrate}[args.action](args)
 
 
 def _list(args: argparse.Namespace) -> int:
@@ -159,6 +179,57 @@ def _check(args: argparse.Namespace) -> int:
         extra = f"; {', '.join(notes)}" if notes else ""
         print(f"{spec}: ok ({len(ts)} targets, {ts.group}, {ts.units}{extra})")
     return status
+
+
+def _parse_token(text: str):
+    from livevowel.errors import UserError
+    from livevowel.profile import CalibrationToken
+
+    vowel, sep, nums = text.partition("=")
+    try:
+        vals = [float(x) for x in nums.split(",")]
+        if not sep or not vowel.strip() or len(vals) not in (2, 3):
+            raise ValueError
+    except ValueError:
+        raise UserError(f"--token {text!r}: expected VOWEL=F1,F2 or VOWEL=F1,F2,F3 in Hz, "
+                        "e.g. --token i=310,2790") from None
+    return CalibrationToken(vowel.strip(), vals[0], vals[1], vals[2] if len(vals) == 3 else None)
+
+
+def _calibrate(args: argparse.Namespace) -> int:
+    import datetime
+    from dataclasses import replace
+    from pathlib import Path
+
+    from livevowel.errors import UserError
+    from livevowel.profile import SpeakerProfile, load_profile
+
+    tokens = [_parse_token(t) for t in args.token]
+    now = datetime.datetime.now().astimezone().isoformat(timespec="seconds")
+    tokens = [replace(t, time=now) for t in tokens]
+    path = Path(args.profile)
+    if path.exists():
+        prof = load_profile(path)
+        if args.speaker and args.speaker != prof.speaker_id:
+            raise UserError(f"{path} belongs to speaker {prof.speaker_id}, not {args.speaker}; "
+                            "choose another file")
+        if args.method:
+            prof = replace(prof, method=args.method)
+        prof = prof.with_tokens(tokens, args.set)
+        verb = "updated"
+    else:
+        if not (args.speaker and args.group and args.set):
+            raise UserError(f"{path} does not exist yet: give --speaker, --group and --set to create it")
+        prof = SpeakerProfile.calibrate(args.speaker, tokens, args.set, voice_group=args.group,
+                                        method=args.method or "auto")
+        verb = "created"
+    prof.save(path)
+    tr = prof.transform
+    print(f"{path}: {verb} for speaker {prof.speaker_id} ({prof.voice_group}), {len(prof.tokens)} tokens")
+    print(f"transform {tr.method} against {tr.reference_set} ({tr.reference_group}): "
+          f"F1 x{tr.factors[0]:.3f}, F2 x{tr.factors[1]:.3f}, F3 x{tr.factors[2]:.3f} "
+          f"from {', '.join(tr.vowels)}")
+    return 0
 
 
 def _table(header, rows, *, right=frozenset()) -> None:
