@@ -24,7 +24,8 @@ EXAMPLE_DESCRIPTION = (
     "Example voice (synthetic, made by livevowel's own Klatt-style formant synthesiser): "
     "an adult man sustains /i/ (as in FLEECE), /ɛ/ (DRESS), /ɑ/ (PALM) and /u/ (GOOSE) for "
     "about 0.85 s each with short pauses, then glides from /u/ to /i/ as in \"we\". "
-    "F0 falls from about 132 Hz to 100 Hz over the 6.1 s take; jitter 0.6 %, shimmer 0.3 dB, "
+    "F0 falls from about 132 Hz to 100 Hz over the 6.1 s take with a slight slow wander; "
+    "jitter 0.6 %, shimmer 0.3 dB, "
     "light breath noise, room noise 40 dB below the voice. "
     "Targets: Peterson & Barney (1952) men's means F1/F2/F3 in Hz: "
     "/i/ 270/2290/3010, /ɛ/ 530/1840/2480, /ɑ/ 730/1090/2440, /u/ 300/870/2240."
@@ -64,7 +65,7 @@ def example_schedule() -> Schedule:
         sil(0.30),
     ]
     return Schedule(tuple(segs), voice="man", jitter_pct=0.6, shimmer_db=0.3,
-                    aspiration_db=-28.0, ramp_s=0.03)
+                    aspiration_db=-28.0, ramp_s=0.03, flutter_pct=10.0)
 
 
 def example_signal(*, rate_hz: float = 16000.0, seed: int = 0) -> tuple[np.ndarray, Truth]:

@@ -487,3 +487,17 @@ def test_extend_after_the_end_inserts_silence_and_keeps_truth():
     starts = truth.period_starts_s
     assert not np.any((starts > 0.21) & (starts < 0.5))
     assert starts[-1] >= 0.5
+
+
+def test_flutter_moves_f0_as_klatt_and_klatt_1990_and_truth_follows():
+    # FL = 25 %: dF0 = 0.5 (F0/100) (sum of three sines) Hz (Klatt & Klatt 1990, from memory)
+    seg = Segment(3.0, "voiced", 100.0, formants_hz=(500.0, 1500.0, 2500.0))
+    y, truth = render(Schedule((seg,), flutter_pct=25.0), rate_hz=16000.0)
+    t = np.arange(0.0, 3.0, 0.001)
+    f0 = truth.at(t)["f0_hz"]
+    wave = sum(np.sin(2 * np.pi * fr * t) for fr in (12.7, 7.1, 4.7))
+    np.testing.assert_allclose(f0, 100.0 + 0.5 * wave, atol=1e-9)
+    assert 0.3 < np.std(f0) < 1.5
+    # each period is 1 / F0 at its start (jitter off)
+    f0_starts = truth.at(truth.period_starts_s)["f0_hz"]
+    np.testing.assert_allclose(truth.periods_s, 1.0 / f0_starts, rtol=1e-9)

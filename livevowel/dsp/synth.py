@@ -118,6 +118,7 @@ _REF_F0_HZ = 120.0
 
 _NOISE_PAGE = 4096      # samples per page of per-sample noise
 _TABLE_BATCH = 64       # update intervals per batch of the parameter table
+_FLUTTER_HZ = (12.7, 7.1, 4.7)   # Klatt & Klatt (1990) flutter components (from memory)
 _PERIOD_PAGE = 256      # periods per page of per-period draws
 
 
@@ -256,6 +257,11 @@ class Schedule:
         Voicing onset and offset ramps (raised cosine, seconds, 0..0.1) at
         the edges of each voiced stretch that borders silence or noise; the
         pulse amplitude is scaled by the ramp at the pulse's flow peak.
+    flutter_pct : float
+        Slow quasi-random F0 wander after Klatt & Klatt (1990, "FL"; from
+        memory): ``dF0 = (FL/50) (F0/100) (sin 2 pi 12.7 t + sin 2 pi 7.1 t
+        + sin 2 pi 4.7 t)`` Hz, added to the contour (and to Truth's F0);
+        0..50, 0 = off.
     """
 
     segments: tuple[Segment, ...]
@@ -270,6 +276,7 @@ class Schedule:
     b5_hz: float | None = None
     update_s: float = 0.001
     ramp_s: float = 0.0
+    flutter_pct: float = 0.0
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "segments", tuple(self.segments))
@@ -331,6 +338,9 @@ class _Plan:
         if not 0.0002 <= upd <= 0.005:
             raise ScheduleError(f"update_s must be 0.0002..0.005 s, got {upd:g}")
         self.chunk = max(1, int(round(upd * rate_hz)))
+        self.flutter = _finite(sch.flutter_pct, "flutter_pct")
+        if not 0.0 <= self.flutter <= 50.0:
+            raise ScheduleError(f"flutter_pct must be 0..50, got {self.flutter:g}")
         self.ramp_s = _finite(sch.ramp_s, "ramp_s")
         if not 0.0 <= self.ramp_s <= 0.1:
             raise ScheduleError(f"ramp_s must be 0..0.1 s, got {self.ramp_s:g}")
@@ -471,7 +481,11 @@ class _Plan:
         i = self.segment_index(t)
         t0, t1 = self.edges[i], self.edges[i + 1]
         w = np.clip((t - t0) / (t1 - t0), 0.0, 1.0)
-        return self.f0a[i] + w * (self.f0b[i] - self.f0a[i])
+        f0 = self.f0a[i] + w * (self.f0b[i] - self.f0a[i])
+        if self.flutter > 0.0:
+            wave = sum(np.sin(2.0 * np.pi * fr * t) for fr in _FLUTTER_HZ)
+            f0 = f0 + (self.flutter / 50.0) * (f0 / 100.0) * wave
+        return f0
 
     def _weight(self, t: np.ndarray, i: np.ndarray) -> np.ndarray:
         """Transition weight 0..1 towards segment i+1 at times t."""
@@ -560,7 +574,11 @@ class _Plan:
         t0, t1 = self._edges_l[i], self._edges_l[i + 1]
         w = min(max((s - t0) / (t1 - t0), 0.0), 1.0)
         a, b = float(self.f0a[i]), float(self.f0b[i])
-        return a + w * (b - a)
+        f0 = a + w * (b - a)
+        if self.flutter > 0.0:
+            wave = sum(math.sin(2.0 * math.pi * fr * s) for fr in _FLUTTER_HZ)
+            f0 += (self.flutter / 50.0) * (f0 / 100.0) * wave
+        return f0
 
     def level_scalar(self, s: float) -> float:
         return float(self.level_at(np.array([s]))[0])
@@ -615,9 +633,13 @@ class Truth:
         Returns a dict of arrays shaped like ``times_s``: ``voiced`` (bool),
         ``f0_hz``, ``f1_hz``, ``f2_hz``, ``f3_hz``, ``b1_hz``, ``b2_hz``,
         ``b3_hz`` (Hz; NaN where not voiced) and ``kind`` (0 silent,
-        1 voiced, 2 noise). F0 is the contour without jitter. A time maps to
-        its nearest sample; formants are those of that sample's coefficient
-        update interval.
+        1 voiced, 2 noise). F0 is the contour (with flutter, without jitter;
+        the period actually used is in :attr:`periods_s`), taken at the
+        exact time. For ``voiced`` and the formants a time maps to its
+        nearest sample, and the formants are those of that sample's
+        coefficient update interval. ``voiced`` follows the schedule: the
+        last glottal pulse of a voiced stretch may end up to one period
+        after it.
         """
         p = self._plan
         t = np.asarray(times_s, dtype=np.float64)
@@ -639,7 +661,7 @@ class Truth:
             pos = np.searchsorted(uniq, c // _TABLE_BATCH) * _TABLE_BATCH + c % _TABLE_BATCH
             f[inside] = np.concatenate([q["f"] for q in batches])[pos]
             b[inside] = np.concatenate([q["b"] for q in batches])[pos]
-        f0 = p.f0_at(ts)
+        f0 = p.f0_at(t)
         out = {"voiced": voiced, "kind": kind, "f0_hz": np.where(voiced, f0, np.nan)}
         for j in range(3):
             out[f"f{j + 1}_hz"] = np.where(voiced, f[:, j], np.nan)
@@ -980,7 +1002,7 @@ def add_noise(signal, *, snr_db: float, seed: int = 0, mask=None) -> np.ndarray:
 
     The signal power is the mean square over ``mask`` (boolean, same length;
     e.g. ``truth.at(t)["voiced"]``) or, by default, over the active part:
-    10 ms frames whose mean square is within 30 dB of the loudest frame.
+    frames of 160 samples whose mean square is within 30 dB of the loudest.
     Noise power = signal power / 10^(snr_db / 10).
 
     Returns a new float64 array.
