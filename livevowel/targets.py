@@ -153,7 +153,10 @@ class Target:
             raise ValueError(f"target {self.id!r}: covariance must be positive definite")
         cov.setflags(write=False)
         object.__setattr__(self, "cov_hz", cov)
-        object.__setattr__(self, "_icov", np.linalg.inv(cov))
+        icov = np.linalg.inv(cov)
+        icov.setflags(write=False)
+        object.__setattr__(self, "_icov", icov)
+        object.__setattr__(self, "_icov_list", icov.tolist())
         if self.polygon_hz is not None:
             poly = np.array(self.polygon_hz, dtype=float).reshape(-1, 2)
             poly.setflags(write=False)
@@ -202,27 +205,38 @@ class Target:
         float or ndarray
             Same shape as the broadcast inputs.
         """
+        ic = self._icov  # type: ignore[attr-defined]
+        if self.polygon_hz is None and isinstance(f1_hz, (int, float)) and isinstance(f2_hz, (int, float)):
+            # Scalar fast path (one frame at a time, as the live display asks).
+            a, b = float(f1_hz) - self.f1_hz, float(f2_hz) - self.f2_hz
+            il = self._icov_list  # type: ignore[attr-defined]
+            q = il[0][0] * a * a + 2.0 * il[0][1] * a * b + il[1][1] * b * b
+            return math.sqrt(q) if q > 0 else (0.0 if q == q else math.nan)
         f1 = np.asarray(f1_hz, dtype=float)
         f2 = np.asarray(f2_hz, dtype=float)
         d1, d2 = np.broadcast_arrays(f1 - self.f1_hz, f2 - self.f2_hz)
         if self.polygon_hz is not None:
             out = self.hit_size_sd * _polygon_gauge(self.polygon_hz, self.centre_hz, d1, d2)
         else:
-            ic = self._icov  # type: ignore[attr-defined]
             q = ic[0, 0] * d1 * d1 + 2.0 * ic[0, 1] * d1 * d2 + ic[1, 1] * d2 * d2
             out = np.sqrt(np.maximum(q, 0.0))
         return float(out) if out.ndim == 0 else out
 
     def contains(self, f1_hz, f2_hz):
         """True where (F1, F2) in Hz lies inside the region at the hit size (NaN: False)."""
-        d = np.asarray(self.distance(f1_hz, f2_hz))
-        inside = d <= self.hit_size_sd
+        d = self.distance(f1_hz, f2_hz)
+        if isinstance(d, float):
+            return d <= self.hit_size_sd
+        inside = np.asarray(d) <= self.hit_size_sd
         return bool(inside) if inside.ndim == 0 else inside
 
     def closeness(self, f1_hz, f2_hz):
         """Closeness score 0..100 (100 at the centre, 50 on the hit boundary; NaN in gives NaN)."""
-        s = closeness_from_distance(self.distance(f1_hz, f2_hz), self.hit_size_sd)
-        return float(s) if np.ndim(s) == 0 else s
+        d = self.distance(f1_hz, f2_hz)
+        if isinstance(d, float):
+            r = d / self.hit_size_sd
+            return 100.0 * 2.0 ** (-(r * r))
+        return closeness_from_distance(d, self.hit_size_sd)
 
     def outline_hz(self, n: int = 64, *, size_sd: float | None = None) -> np.ndarray:
         """Boundary of the region as an ``(n, 2)`` array of (F1, F2) in Hz, for drawing.
@@ -376,6 +390,14 @@ class TargetSet:
     spread_assumption: str | None = None
     path: Path | None = None
 
+    def __post_init__(self) -> None:
+        ell = [i for i, t in enumerate(self.targets) if t.polygon_hz is None]
+        object.__setattr__(self, "_ell", np.array(ell, dtype=int))
+        object.__setattr__(self, "_poly", [i for i, t in enumerate(self.targets) if t.polygon_hz is not None])
+        object.__setattr__(self, "_centres", np.array([[self.targets[i].f1_hz, self.targets[i].f2_hz] for i in ell])
+                           .reshape(-1, 2))
+        object.__setattr__(self, "_icovs", np.array([self.targets[i]._icov for i in ell]).reshape(-1, 2, 2))
+
     def __len__(self) -> int:
         return len(self.targets)
 
@@ -413,7 +435,17 @@ class TargetSet:
 
     def distances(self, f1_hz, f2_hz) -> np.ndarray:
         """Distance (SD units) to every target: shape ``inputs.shape + (n_targets,)``."""
-        return np.stack([np.asarray(t.distance(f1_hz, f2_hz), dtype=float) for t in self.targets], axis=-1)
+        f1, f2 = np.broadcast_arrays(np.asarray(f1_hz, dtype=float), np.asarray(f2_hz, dtype=float))
+        out = np.empty(f1.shape + (len(self.targets),))
+        if len(self._ell):
+            d1 = f1[..., None] - self._centres[:, 0]
+            d2 = f2[..., None] - self._centres[:, 1]
+            ic = self._icovs
+            q = ic[:, 0, 0] * d1 * d1 + 2.0 * ic[:, 0, 1] * d1 * d2 + ic[:, 1, 1] * d2 * d2
+            out[..., self._ell] = np.sqrt(np.maximum(q, 0.0))
+        for i in self._poly:
+            out[..., i] = self.targets[i].distance(f1, f2)
+        return out
 
     def classify(self, f1_hz, f2_hz) -> tuple[np.ndarray, np.ndarray]:
         """Nearest target for many points at once.
@@ -436,8 +468,9 @@ class TargetSet:
         """The nearest target by Mahalanobis distance and that distance (SD units)."""
         if not (np.isfinite(f1_hz) and np.isfinite(f2_hz)):
             raise ValueError("nearest: F1 and F2 must be finite numbers (measure a vowel first)")
-        idx, dist = self.classify(float(f1_hz), float(f2_hz))
-        return self.targets[int(idx)], float(dist)
+        d = self.distances(float(f1_hz), float(f2_hz))
+        i = int(np.argmin(d))
+        return self.targets[i], float(d[i])
 
     def centres_hz(self) -> np.ndarray:
         """``(n_targets, 3)`` array of F1, F2, F3 in Hz (NaN where F3 is not given)."""

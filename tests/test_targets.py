@@ -288,6 +288,18 @@ def test_nearest_and_classify(good):
         good.get("trap")
 
 
+def test_set_distances_agree_with_each_target(good):
+    rng = np.random.default_rng(7)
+    f1, f2 = rng.uniform(200, 900, 30), rng.uniform(700, 2600, 30)
+    d = good.distances(f1, f2)
+    for j, t in enumerate(good.targets):
+        np.testing.assert_allclose(d[:, j], t.distance(f1, f2), rtol=1e-12)
+        for a, b in zip(f1[:5], f2[:5]):  # scalar fast path gives the same numbers
+            assert t.distance(float(a), float(b)) == pytest.approx(t.distance(np.array([a]), np.array([b]))[0])
+    idx, _ = good.classify(f1, f2)
+    assert [good.nearest(a, b)[0].id for a, b in zip(f1, f2)] == [good.targets[i].id for i in idx]
+
+
 def test_mapped_scales_centre_spread_and_polygon(good):
     m = good.mapped((1.2, 1.1, 1.05), id="mapped")
     a, b = good.get("fleece"), m.get("fleece")
