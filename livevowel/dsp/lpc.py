@@ -589,18 +589,30 @@ def polynomial_roots(a) -> np.ndarray:
         raise ValueError(f"a must have shape (n, p + 1) with p >= 1, got {a.shape}")
     n, p1 = a.shape
     p = p1 - 1
+    good = np.isfinite(a).all(axis=1) & (a[:, 0] != 0)
+    if good.all():
+        return np.linalg.eigvals(_companion(a))
     roots = np.full((n, p), np.nan + 1j * np.nan)
-    good = np.all(np.isfinite(a), axis=1) & (a[:, 0] != 0)
-    if not np.any(good):
-        return roots
-    c = a[good, 1:] / a[good, :1]
-    comp = np.zeros((c.shape[0], p, p))
-    comp[:, 0, :] = -c
-    if p > 1:
-        i = np.arange(p - 1)
-        comp[:, i + 1, i] = 1.0
-    roots[good] = np.linalg.eigvals(comp)
+    if good.any():
+        roots[good] = np.linalg.eigvals(_companion(a[good]))
     return roots
+
+
+def _companion(a: np.ndarray) -> np.ndarray:
+    """Stacked companion matrices (n, p, p) of the rows of ``a`` (n, p + 1)."""
+    n, p1 = a.shape
+    p = p1 - 1
+    comp = np.empty((n, p, p))
+    comp[:] = _shift_matrix(p)
+    np.divide(a[:, 1:], -a[:, :1], out=comp[:, 0, :])
+    return comp
+
+
+@functools.lru_cache(maxsize=16)
+def _shift_matrix(p: int) -> np.ndarray:
+    m = np.eye(p, k=-1)
+    m.setflags(write=False)
+    return m
 
 
 def formant_candidates(a, *, rate_hz: float, min_hz: float = 50.0, max_hz: float | None = None,
@@ -652,18 +664,21 @@ def formant_candidates(a, *, rate_hz: float, min_hz: float = 50.0, max_hz: float
         raise ValueError(f"max_bandwidth_hz must be positive, got {max_bandwidth_hz!r}")
     n, p = roots.shape
     k_out = p // 2
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mag = np.abs(roots)
-        freq = np.angle(roots) * rate / (2.0 * np.pi)
-        bw = np.abs(np.log(mag)) * rate / np.pi
-        keep = np.isfinite(freq) & (roots.imag > 1e-12) & (freq >= min_hz) & (freq <= max_hz) & np.isfinite(bw)
-        if max_bandwidth_hz is not None:
-            keep &= bw <= max_bandwidth_hz
+    # |z| = 0 (a zero coefficient at the end) would give an infinite bandwidth: floor it
+    mag = np.maximum(np.abs(roots), 1e-300)
+    freq = np.angle(roots) * (rate / (2.0 * np.pi))
+    bw = np.abs(np.log(mag)) * (rate / np.pi)
+    keep = roots.imag > 1e-12          # False for NaN rows
+    keep &= freq >= min_hz
+    keep &= freq <= max_hz
+    if max_bandwidth_hz is not None:
+        keep &= bw <= max_bandwidth_hz
     f_sort = np.where(keep, freq, np.inf)
     order_idx = np.argsort(f_sort, axis=1)[:, :k_out]
-    f_out = np.take_along_axis(f_sort, order_idx, axis=1)
-    b_out = np.take_along_axis(np.where(keep, bw, np.nan), order_idx, axis=1)
-    missing = ~np.isfinite(f_out)
+    rows = np.arange(n)[:, None]
+    f_out = f_sort[rows, order_idx]
+    b_out = bw[rows, order_idx]
+    missing = np.isinf(f_out)
     f_out[missing] = np.nan
     b_out[missing] = np.nan
     return f_out, b_out

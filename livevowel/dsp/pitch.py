@@ -6,6 +6,7 @@ full-scale units, 1.0 = digital full scale) and are vectorised over frames.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -128,20 +129,34 @@ def difference_function(frames, *, max_lag: int, window: int | None = None) -> n
     w = n - max_lag if window is None else int(window)
     if max_lag < 1 or w < 1 or w + max_lag > n:
         raise ValueError(f"need max_lag >= 1, W >= 1 and W + max_lag <= N; got max_lag={max_lag}, W={w}, N={n}")
+    return _difference(x, max_lag, w)
+
+
+def _difference(x: np.ndarray, max_lag: int, w: int) -> np.ndarray:
+    """Core of :func:`difference_function` (no validation)."""
+    n_frames = x.shape[0]
     # c[tau] = sum_{j<W} x[j] x[j + tau] by circular correlation; a transform of
     # length >= W + max_lag keeps lags 0..max_lag free of wrap-around.
-    nfft = scipy.fft.next_fast_len(w + max_lag, real=True)
+    nfft = _fast_len(w + max_lag)
     spec_full = scipy.fft.rfft(x[:, : w + max_lag], nfft, axis=1)
     spec_head = scipy.fft.rfft(x[:, :w], nfft, axis=1)
-    c = scipy.fft.irfft(spec_full * np.conj(spec_head), nfft, axis=1)[:, : max_lag + 1]
-    sq = np.zeros((n_frames, n + 1))
-    sq[:, 1:] = np.cumsum(x * x, axis=1)
-    tau = np.arange(max_lag + 1)
-    e0 = sq[:, w : w + 1]                       # sum_{j<W} x[j]^2
-    et = sq[:, tau + w] - sq[:, tau]            # sum_{j<W} x[j+tau]^2
-    d = e0 + et - 2.0 * c
+    spec_full *= spec_head.conj()
+    c = scipy.fft.irfft(spec_full, nfft, axis=1)[:, : max_lag + 1]
+    sq = np.empty((n_frames, w + max_lag + 1))
+    sq[:, 0] = 0.0
+    np.cumsum(np.square(x[:, : w + max_lag]), axis=1, out=sq[:, 1:])
+    # d = e(0) + e(tau) - 2 c(tau), e(tau) = sum_{j<W} x[j + tau]^2
+    d = sq[:, w : w + max_lag + 1] - sq[:, : max_lag + 1]
+    d += sq[:, w : w + 1]
+    d -= 2.0 * c
     d[:, 0] = 0.0
-    return np.maximum(d, 0.0)
+    np.maximum(d, 0.0, out=d)
+    return d
+
+
+@functools.lru_cache(maxsize=64)
+def _fast_len(n: int) -> int:
+    return scipy.fft.next_fast_len(n, real=True)
 
 
 def cmnd(d: np.ndarray) -> np.ndarray:
@@ -153,16 +168,30 @@ def cmnd(d: np.ndarray) -> np.ndarray:
     d = np.asarray(d, dtype=np.float64)
     if d.ndim != 2 or d.shape[1] < 2:
         raise ValueError(f"d must have shape (n_frames, max_lag + 1) with max_lag >= 1, got {d.shape}")
+    return _cmnd(d)
+
+
+def _cmnd(d: np.ndarray) -> np.ndarray:
     cs = np.cumsum(d[:, 1:], axis=1)
-    tau = np.arange(1, d.shape[1])
     out = np.ones_like(d)
     ok = cs > 0
-    out[:, 1:] = np.where(ok, d[:, 1:] * tau / np.where(ok, cs, 1.0), 1.0)
+    cs[~ok] = 1.0
+    q = d[:, 1:] * _lag_index(d.shape[1])
+    q /= cs
+    q[~ok] = 1.0
+    out[:, 1:] = q
     return out
 
 
+@functools.lru_cache(maxsize=64)
+def _lag_index(n: int) -> np.ndarray:
+    t = np.arange(1, n, dtype=np.float64)
+    t.setflags(write=False)
+    return t
+
+
 def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 600.0,
-        threshold: float = 0.15, fallback: bool = False) -> tuple[np.ndarray, np.ndarray]:
+        threshold: float = 0.15, fallback: bool = False, return_cmnd: bool = False):
     """YIN fundamental-frequency estimate per frame (de Cheveigné & Kawahara 2002).
 
     Steps 2-5 of the paper: difference function, cumulative mean normalised
@@ -188,6 +217,10 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     fallback : bool
         If no lag falls below ``threshold``, take the global CMND minimum in
         range (paper step 4) instead of returning NaN.
+    return_cmnd : bool
+        Also return the CMND ``d'`` (n_frames, tau_max + 2) for lags
+        0..tau_max+1 (e.g. for an octave check at twice the chosen lag)
+        without computing it again.
 
     Returns
     -------
@@ -196,6 +229,7 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     aperiodicity : array (n_frames,)
         CMND value at the chosen lag (0 = perfectly periodic, about 1 = noise);
         for frames without a period, the minimum CMND over the search range.
+    cmnd : array (n_frames, tau_max + 2), only with ``return_cmnd=True``.
     """
     x = _frames_2d(frames)
     rate, tau_min, tau_max = _lags(rate_hz, f0_min_hz, f0_max_hz)
@@ -208,37 +242,40 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
             f"YIN needs frames of at least {need} samples ({1e3 * need / rate:.1f} ms) for "
             f"f0_min_hz={f0_min_hz:g} at {rate:g} Hz, got {n}")
     w = n - tau_max - 1
-    d = difference_function(x, max_lag=tau_max + 1, window=w)
-    dp = cmnd(d)
-    lags = np.arange(dp.shape[1])
-    in_range = (lags >= tau_min) & (lags <= tau_max)
-    below = (dp < threshold) & in_range
-    found = np.any(below, axis=1)
-    first = np.argmax(below, axis=1)
+    d = _difference(x, tau_max + 1, w)
+    dp = _cmnd(d)
+    sub = dp[:, tau_min: tau_max + 1]             # lags tau_min .. tau_max
+    below = sub < threshold
+    found = below.any(axis=1)
+    first = below.argmax(axis=1)
     # follow the dip down to its local minimum: first lag >= first with d'(t+1) >= d'(t)
-    rising = np.zeros_like(below)
-    rising[:, :-1] = dp[:, 1:] >= dp[:, :-1]
-    rising[:, tau_max] = True
-    cand = rising & (lags >= first[:, None]) & in_range
-    best = np.argmax(cand, axis=1)
-    masked = np.where(in_range, dp, np.inf)
-    gmin = np.argmin(masked, axis=1)
+    rising = np.empty(sub.shape, dtype=bool)
+    np.greater_equal(sub[:, 1:], sub[:, :-1], out=rising[:, :-1])
+    rising[:, -1] = True
+    rising &= _lag_index(sub.shape[1] + 1)[None, :] > first[:, None]   # (index + 1) > first
+    best = rising.argmax(axis=1) + tau_min
+    gmin = sub.argmin(axis=1) + tau_min
+    rows = np.arange(n_frames)
     if fallback:
         best = np.where(found, best, gmin)
-        found = np.ones_like(found)
-    rows = np.arange(n_frames)
-    aper = np.where(found, dp[rows, best], dp[rows, gmin])
-    # parabolic interpolation on the raw difference function
-    t = np.clip(best, 1, tau_max)
-    y0, y1, y2 = d[rows, t - 1], d[rows, t], d[rows, t + 1]
+        aper = dp[rows, best]
+        found = np.ones(n_frames, dtype=bool)
+    else:
+        aper = dp[rows, np.where(found, best, gmin)]
+    # parabolic interpolation on the raw difference function (tau_min >= 2, so t +- 1 exist)
+    y0, y1, y2 = d[rows, best - 1], d[rows, best], d[rows, best + 1]
     den = y0 - 2.0 * y1 + y2
-    with np.errstate(invalid="ignore", divide="ignore"):
-        shift = np.where(den > 0, 0.5 * (y0 - y2) / np.where(den > 0, den, 1.0), 0.0)
-    shift = np.clip(shift, -1.0, 1.0)
-    period = t + shift
-    silent = d[:, 1:].sum(axis=1) <= 0
-    f0 = np.where(found & ~silent, rate / period, np.nan)
-    aper = np.where(silent, 1.0, aper)
+    pos = den > 0
+    shift = 0.5 * (y0 - y2) / np.where(pos, den, 1.0)
+    shift[~pos] = 0.0
+    np.maximum(shift, -1.0, out=shift)
+    np.minimum(shift, 1.0, out=shift)
+    silent = d.max(axis=1) <= 0
+    f0 = rate / (best + shift)
+    f0[~found | silent] = np.nan
+    aper[silent] = 1.0
+    if return_cmnd:
+        return f0, aper, dp
     return f0, aper
 
 
