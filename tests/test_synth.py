@@ -341,6 +341,8 @@ def test_silence_is_silent():
     only_silence = Schedule((Segment(0.1, "silent", formants_hz=(500, 1500, 2500)),))
     z, truth = render(only_silence, rate_hz=rate)
     assert np.all(z == 0.0) and len(truth.period_starts_s) == 0
+    bare, _ = render(Schedule((Segment(0.05, "silent"),)), rate_hz=rate)
+    assert len(bare) == 800 and np.all(bare == 0.0)
 
 
 def test_deterministic_for_a_seed():
