@@ -23,6 +23,7 @@ SUITES: dict[str, str] = {
     "dsp": "dsp",
     "display": "display",
     "synth": "synth",
+    "targets": "targets",
 }
 
 
