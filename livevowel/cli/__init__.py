@@ -23,7 +23,7 @@ from livevowel.errors import UserError
 
 #: Command modules in the order ``--help`` lists them.
 COMMAND_MODULES: tuple[str, ...] = (
-    "config_cmd",
+    "analyze",
     "listen",
     "devices",
     "targets",
@@ -33,6 +33,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "sessions",
     "export",
     "bench",
+    "config_cmd",
 )
 
 DESCRIPTION = """\
