@@ -81,6 +81,36 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "pre_emphasis_hz": Key(50.0, "pre-emphasis corner frequency in Hz (0 turns it off)", min=0, max=1000),
         "f0_min_hz": Key(60.0, "lowest F0 searched, Hz", min=30, max=400),
         "f0_max_hz": Key(700.0, "highest F0 searched, Hz", min=100, max=1500),
+        "method": Key("dap", "formant method: dap (discrete all-pole fit to the harmonics, best for high voices), "
+                      "autocorrelation, burg, weighted (weighted linear prediction) or hybrid "
+                      "(autocorrelation below dap_above_hz, dap above)",
+                      kind=str, choices=("dap", "autocorrelation", "burg", "weighted", "hybrid")),
+        "dap_above_hz": Key(160.0, "hybrid method only: F0 in Hz from which the dap fit is used", min=0, max=1000),
+        "taper": Key("gaussian", "analysis window shape: gaussian, hann or hamming",
+                     kind=str, choices=("gaussian", "hann", "hamming")),
+        "yin_threshold": Key(0.1, "YIN dip threshold for the period search (lower = stricter)", min=0.01, max=0.5),
+        "voicing_on": Key(0.25, "aperiodicity below which voicing starts (0 = perfectly periodic)",
+                          min=0.01, max=1.0),
+        "voicing_off": Key(0.4, "aperiodicity above which voicing stops (at least voicing_on)",
+                           min=0.01, max=1.0),
+        "voicing_floor_db": Key(-50.0, "level in dB re full scale below which voicing cannot start",
+                                min=-100, max=0),
+        "max_bandwidth_hz": Key(700.0, "resonances wider than this (Hz) are not taken as formants",
+                                min=100, max=2000),
+        "hold_ms": Key(50.0, "unvoiced gaps up to this long (ms) keep the last formants; longer ones reset",
+                       min=0, max=500),
+        "smoother_alpha": Key(0.4, "live display smoothing for small moves, 0..1 (1 = none)", min=0.01, max=1.0),
+        "smoother_jump": Key(0.15, "relative change (0.15 = 15 %) that the live display follows at once",
+                             min=0.01, max=2.0),
+        "auto_settle_ms": Key(500.0, "live voice=auto: voiced time (ms) after which the voice is decided",
+                              min=0, max=5000),
+        "transition_cost": Key(6.0, "tracking: cost weight of frame-to-frame formant change", min=0, max=100),
+        "bandwidth_cost": Key(1.0, "tracking: cost weight of wide candidates", min=0, max=100),
+        "reference_cost": Key(1.0, "tracking: cost weight of distance from the voice's typical formants",
+                              min=0, max=100),
+        "harmonic_cost": Key(0.5, "tracking: cost weight of narrow candidates sitting on a harmonic",
+                             min=0, max=100),
+        "skip_cost": Key(1.5, "tracking: cost weight of leaving a strong candidate unassigned", min=0, max=100),
     },
     "live": {
         "block_ms": Key(10.0, "audio block (device callback) length in milliseconds", min=2, max=100),
@@ -242,6 +272,8 @@ def load(*, config_file: str | os.PathLike | None = None,
     for sec, keys in values.items():  # cross-key checks
         if sec == "analysis" and keys["f0_min_hz"] >= keys["f0_max_hz"]:
             raise UserError("analysis.f0_min_hz must be below analysis.f0_max_hz")
+        if sec == "analysis" and keys.get("voicing_on", 0) > keys.get("voicing_off", 1):
+            raise UserError("analysis.voicing_on must not be above analysis.voicing_off")
     return Settings(values)
 
 

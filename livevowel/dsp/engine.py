@@ -70,8 +70,10 @@ from typing import Any
 import numpy as np
 
 from livevowel.dsp import framing
-from livevowel.dsp.lpc import METHODS, formant_candidates, lpc
-from livevowel.dsp.pitch import frame_level_db, voicing_hysteresis, yin, yin_frame_length
+from livevowel.dsp.dap import dap, harmonic_powers
+from livevowel.dsp.lpc import METHODS as LPC_METHODS
+from livevowel.dsp.lpc import formant_candidates, lpc
+from livevowel.dsp.pitch import cmnd, difference_function, frame_level_db, voicing_hysteresis, yin, yin_frame_length
 from livevowel.dsp.resample import StreamResampler, resample
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
                                     state_table, viterbi_segments)
@@ -89,19 +91,25 @@ __all__ = [
     "voice_from_f0",
 ]
 
+#: Formant methods: the LPC methods of :mod:`livevowel.dsp.lpc`, discrete
+#: all-pole modelling of the harmonics (``"dap"``, :mod:`livevowel.dsp.dap`) and
+#: ``"hybrid"`` (autocorrelation LPC below ``dap_above_hz``, DAP above).
+METHODS: tuple[str, ...] = LPC_METHODS + ("dap", "hybrid")
+
 #: Speaker groups the engine knows.
 VOICES: tuple[str, ...] = ("adult_male", "adult_female", "child", "auto")
 
 #: Formant ceiling per voice, Hz (common practice, from memory).
 NOMINAL_CEILING_HZ: dict[str, float] = {"adult_male": 5000.0, "adult_female": 5500.0, "child": 8000.0}
 
-#: Reference F1..F3 per voice, Hz: a uniform tube closed at one end,
-#: F_n = (2n - 1) c / 4L with c = 350 m/s and L = 17.5 / 15 / 12 cm
-#: (common practice; tract lengths from memory). A weak pull only.
+#: Reference F1..F3 per voice, Hz: the geometric middle of the range of
+#: the Peterson & Barney (1952) vowel means of each group (e.g. men's F1
+#: 270..730 Hz -> 444 Hz; values from memory). A weak pull only: it settles
+#: which candidate is which when the others costs are equal.
 REFERENCE_HZ: dict[str, tuple[float, float, float]] = {
-    "adult_male": (500.0, 1500.0, 2500.0),
-    "adult_female": (583.0, 1750.0, 2917.0),
-    "child": (729.0, 2188.0, 3646.0),
+    "adult_male": (444.0, 1387.0, 2255.0),
+    "adult_female": (516.0, 1602.0, 2547.0),
+    "child": (617.0, 1842.0, 2838.0),
 }
 
 #: Number of formants assumed below the nominal ceiling (LPC order = 2 n + 2).
@@ -150,10 +158,18 @@ class AnalysisSettings:
         Analysis window and hop in seconds.
     pre_emphasis_hz : float
         Pre-emphasis corner in Hz (0 = off).
-    window : {"gaussian", "hann", "hamming"}
-        Taper (see :mod:`livevowel.dsp.framing`).
-    method : {"weighted", "autocorrelation", "burg"}
-        Linear-prediction method (see :mod:`livevowel.dsp.lpc`).
+    taper : {"gaussian", "hann", "hamming"}
+        Window shape (see :mod:`livevowel.dsp.framing`).
+    method : {"dap", "autocorrelation", "burg", "weighted", "hybrid"}
+        ``"dap"`` (default): discrete all-pole fit to the harmonic powers
+        (El-Jaroudi & Makhoul 1991, :mod:`livevowel.dsp.dap`) where F0 is
+        known, autocorrelation LPC elsewhere; the others as in
+        :mod:`livevowel.dsp.lpc`; ``"hybrid"``: autocorrelation below
+        ``dap_above_hz`` F0, DAP above.
+    dap_above_hz : float
+        Hybrid only: F0 (Hz) from which DAP is used.
+    dap_iterations : int
+        Fixed-point iterations of the DAP fit.
     f0_min_hz, f0_max_hz : float
         F0 search range in Hz.
     yin_threshold : float
@@ -172,7 +188,7 @@ class AnalysisSettings:
         Relative change that passes the smoother at once (0.15 = 15 %).
     auto_settle_s : float
         Voiced time after which causal ``voice="auto"`` settles (seconds).
-    w_freq, w_bw, w_harm, w_trans, miss_cost : float
+    w_freq, w_bw, w_harm, w_trans, miss_cost, w_skip : float
         Tracking cost weights (see :mod:`livevowel.dsp.tracking`).
     """
 
@@ -181,11 +197,13 @@ class AnalysisSettings:
     window_s: float = 0.025
     hop_s: float = 0.010
     pre_emphasis_hz: float = 50.0
-    window: str = "gaussian"
-    method: str = "weighted"
+    taper: str = "gaussian"
+    method: str = "dap"
+    dap_above_hz: float = 160.0
+    dap_iterations: int = 12
     f0_min_hz: float = 60.0
     f0_max_hz: float = 700.0
-    yin_threshold: float = 0.2
+    yin_threshold: float = 0.1
     voicing_on: float = 0.25
     voicing_off: float = 0.4
     voicing_floor_db: float = -50.0
@@ -199,6 +217,7 @@ class AnalysisSettings:
     w_harm: float = 0.5
     w_trans: float = 6.0
     miss_cost: float = 2.0
+    w_skip: float = 1.5
 
     def __post_init__(self) -> None:
         def bad(msg: str) -> None:
@@ -214,8 +233,8 @@ class AnalysisSettings:
             bad(f"hop_s {self.hop_s} must be at least 0.001 s and at most 4 windows")
         if self.pre_emphasis_hz < 0:
             bad("pre_emphasis_hz must be >= 0")
-        if self.window not in framing.WINDOWS:
-            bad(f"window {self.window!r} is not one of {', '.join(framing.WINDOWS)}")
+        if self.taper not in framing.WINDOWS:
+            bad(f"taper {self.taper!r} is not one of {', '.join(framing.WINDOWS)}")
         if self.method not in METHODS:
             bad(f"method {self.method!r} is not one of {', '.join(METHODS)}")
         if not (0 < self.f0_min_hz < self.f0_max_hz):
@@ -237,6 +256,9 @@ class AnalysisSettings:
         does not know are ignored (they belong to other layers).
         """
         sec = dict(settings["analysis"])
+        aliases = {"transition_cost": "w_trans", "bandwidth_cost": "w_bw", "reference_cost": "w_freq",
+                   "harmonic_cost": "w_harm", "skip_cost": "w_skip"}
+        sec = {aliases.get(k, k): v for k, v in sec.items()}
         kw: dict[str, Any] = {}
         names = {f.name for f in fields(cls)}
         for key, value in sec.items():
@@ -251,7 +273,7 @@ class AnalysisSettings:
 
     def costs(self) -> TrackerCosts:
         return TrackerCosts(w_freq=self.w_freq, w_bw=self.w_bw, w_harm=self.w_harm, w_trans=self.w_trans,
-                            miss_cost=self.miss_cost)
+                            miss_cost=self.miss_cost, w_skip=self.w_skip)
 
 
 @dataclass
@@ -391,8 +413,34 @@ def _make_plan(s: AnalysisSettings, voice: str, input_rate: int) -> tuple[_Plan,
     n_pitch = n + 2 * ext
     plan = _Plan(voice=voice, ceiling_hz=ceiling, rate_hz=rate, order=order, hop=hop, n=n, n_pitch=n_pitch,
                  ext=ext, coef=framing.pre_emphasis_coefficient(s.pre_emphasis_hz, rate),
-                 taper=framing.taper(s.window, n), ref_hz=ref)
+                 taper=framing.taper(s.taper, n), ref_hz=ref)
     return plan, warns
+
+
+def _pitch(rows: np.ndarray, plan: _Plan, s: AnalysisSettings) -> tuple[np.ndarray, np.ndarray]:
+    """YIN F0 and aperiodicity with an octave-down check.
+
+    YIN's first dip below the threshold can be at half the period when the
+    second harmonic dominates (F1 near 2 F0). If the cumulative mean
+    normalised difference at twice the chosen lag is less than half the
+    chosen one, the doubled lag is taken (de Cheveigné & Kawahara 2002,
+    sec. II.E discuss such "too high" errors).
+    """
+    f0_max = min(s.f0_max_hz, plan.rate_hz / 4.0)
+    f0, ap = yin(rows, rate_hz=plan.rate_hz, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max,
+                 threshold=s.yin_threshold, fallback=True)
+    tau_max = int(np.ceil(plan.rate_hz / s.f0_min_hz))
+    ok = np.isfinite(f0)
+    if np.any(ok):
+        d = difference_function(rows, max_lag=tau_max + 1, window=rows.shape[1] - tau_max - 1)
+        dp = cmnd(d)
+        tau2 = np.where(ok, np.rint(2.0 * plan.rate_hz / np.where(ok, f0, 1.0)), 0).astype(int)
+        fits = ok & (tau2 <= tau_max)
+        d2 = np.where(fits, dp[np.arange(len(f0)), np.clip(tau2, 0, tau_max)], np.inf)
+        down = fits & (d2 < 0.5 * ap)
+        f0 = np.where(down, f0 / 2.0, f0)
+        ap = np.where(down, d2, ap)
+    return f0, ap
 
 
 def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np.ndarray, *,
@@ -422,12 +470,22 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
     formant_rows = rows[:, plan.ext: plan.ext + plan.n + 1]  # one extra sample before the frame
     if pitch:
         out["level_db"] = frame_level_db(formant_rows[:, 1:])
-        f0_max = min(s.f0_max_hz, plan.rate_hz / 4.0)
-        f0, ap = yin(rows[:, 1:], rate_hz=plan.rate_hz, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max,
-                     threshold=s.yin_threshold, fallback=True)
-        out["f0_hz"], out["aper"] = f0, ap
+        out["f0_hz"], out["aper"] = _pitch(rows[:, 1:], plan, s)
     cond = framing.condition_frames(formant_rows, coef=plan.coef, window=plan.taper)
-    coeffs = lpc(cond, order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)
+    if s.method in ("dap", "hybrid"):
+        if "f0_hz" not in out:
+            f0, _ = _pitch(rows[:, 1:], plan, s)
+        else:
+            f0 = out["f0_hz"]
+        coeffs = lpc(cond, order=plan.order, method="autocorrelation", window=None, rate_hz=plan.rate_hz)
+        use = np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
+        if np.any(use):
+            hf, hp, hw = harmonic_powers(cond[use], f0[use], rate_hz=plan.rate_hz,
+                                         max_hz=plan.rate_hz / 2.0 - plan.min_hz)
+            a_dap, _ = dap(hf, hp, hw, order=plan.order, rate_hz=plan.rate_hz, iterations=s.dap_iterations)
+            coeffs[use] = a_dap
+    else:
+        coeffs = lpc(cond, order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)
     cf, cb = formant_candidates(coeffs, rate_hz=plan.rate_hz, min_hz=plan.min_hz,
                                 max_hz=plan.rate_hz / 2.0 - plan.min_hz, max_bandwidth_hz=s.max_bandwidth_hz)
     out["cand_f"], out["cand_b"] = cf, cb

@@ -13,7 +13,10 @@ found (penalised). Costs, all dimensionless:
   - ``w_harm * sum_i h(F_i, B_i, F0)``: a narrow candidate sitting on a
     harmonic ``k*F0`` is probably the harmonic, not the resonance (the
     "harmonic attraction" of LPC at high F0);
-  - ``miss_cost`` when F3 is missing.
+  - ``miss_cost`` when F3 is missing;
+  - ``w_skip * exp(-B / skip_bw_hz) * (1 - h)`` for each candidate left out
+    below the highest formant taken (a strong resonance is not skipped
+    lightly, a harmonic-like one is).
 
 * transition cost between states of consecutive frames
   ``w_trans * sum_i |ln(F_i(t) / F_i(t-1))|`` (over the formants both have).
@@ -70,6 +73,8 @@ class TrackerCosts:
     w_harm: float = 0.5
     w_trans: float = 6.0
     miss_cost: float = 2.0
+    w_skip: float = 1.5
+    skip_bw_hz: float = 250.0    # a skipped candidate this narrow costs w_skip / e
     harm_bw_hz: float = 80.0     # candidates narrower than about this count as harmonic-like
 
 
@@ -140,6 +145,21 @@ def local_costs(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz:
     need = np.isfinite(sf[:, :, 0]) & np.isfinite(sf[:, :, 1]) & (np.isfinite(sf[:, :, 2]) | miss3[None, :])
     per = np.where(np.isfinite(per), per, 0.0)
     total = per.sum(axis=2) + costs.miss_cost * miss3[None, :]
+    if costs.w_skip:
+        # leaving out a candidate that lies below the highest formant taken
+        k = freq.shape[1]
+        assigned = np.zeros((len(states), k), dtype=bool)
+        for c in range(3):
+            ok = states[:, c] >= 0
+            assigned[np.flatnonzero(ok), states[ok, c]] = True
+        top = states.max(axis=1)
+        skipped = (~assigned) & (np.arange(k)[None, :] < top[:, None])
+        f0a = np.asarray(f0_hz, dtype=float)
+        h = _harmonic_likeness(freq[:, None, :], bw[:, None, :], f0a, costs.harm_bw_hz)[:, 0, :]
+        with np.errstate(invalid="ignore"):
+            val = np.exp(-bw / costs.skip_bw_hz) * (1.0 - h)
+        val = np.where(np.isfinite(val), val, 0.0)
+        total = total + costs.w_skip * val @ skipped.T.astype(np.float64)
     total = np.where(need, total, np.inf)
     return total, sf, sb
 
