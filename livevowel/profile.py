@@ -263,7 +263,14 @@ class SpeakerProfile:
     def with_tokens(self, tokens: Iterable[CalibrationToken], reference: "TargetSet | str | None" = None, *,
                     today: "str | None" = None) -> "SpeakerProfile":
         """A refitted profile with ``tokens`` added (reference: the one used before by default)."""
-        ref = load_target_set(reference if reference is not None else self.transform.reference_set)
+        if reference is None:
+            try:
+                ref = load_target_set(self.transform.reference_set)
+            except UserError:
+                raise UserError(f"profile {self.speaker_id} was calibrated against {self.transform.reference_set!r}, "
+                                "which is not a shipped set; give that set's file again") from None
+        else:
+            ref = load_target_set(reference)
         toks = self.tokens + tuple(tokens)
         return SpeakerProfile(speaker_id=self.speaker_id, voice_group=self.voice_group, created=self.created,
                               updated=today or _dt.date.today().isoformat(), tokens=toks,

@@ -201,3 +201,14 @@ def test_cli_calibrate_creates_and_updates(tmp_path, capsys):
     assert prof.tokens[1].f3_hz == 2810.0 and prof.tokens[0].time
     assert main(["targets", "calibrate", str(p), "--token", "i=310"]) == 2
     assert "expected VOWEL=F1,F2" in capsys.readouterr().err
+
+
+def test_update_against_a_custom_set_needs_the_file_again(tmp_path):
+    src = load_target_set("gae-pb-men").path.read_text(encoding="utf-8")
+    custom = tmp_path / "my-men.yaml"
+    custom.write_text(src, encoding="utf-8")
+    prof = SpeakerProfile.calibrate("C1", pb_tokens("women", ("i", "ɑ", "u")), str(custom), voice_group="adult_female")
+    assert prof.transform.reference_set == "my-men"
+    with pytest.raises(UserError, match="not a shipped set; give that set's file again"):
+        prof.with_tokens(pb_tokens("women", ("ɛ",)))
+    assert len(prof.with_tokens(pb_tokens("women", ("ɛ",)), str(custom)).tokens) == 4
