@@ -160,7 +160,8 @@ def run_drill(args: argparse.Namespace) -> int:
     source = source_from_args(args, live=live)
     interrupted = False
     try:
-        summary = run_headless(session, source, analysis=AnalysisSettings.from_config(settings), live=live)
+        summary = run_headless(session, source, analysis=AnalysisSettings.from_config(settings), live=live,
+                               warn=warn)
     except KeyboardInterrupt:
         interrupted = True
         summary = session.finish()

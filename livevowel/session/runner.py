@@ -318,7 +318,7 @@ def feed(session: DrillSession, pipe) -> list[Outcome]:
 
 
 def run_headless(session: DrillSession, source, *, analysis=None, live=None, poll_s: float = 0.005,
-                 timeout_s: float | None = None) -> SessionSummary:
+                 timeout_s: float | None = None, warn: Callable[[str], None] | None = None) -> SessionSummary:
     """Run ``session`` from ``source`` through the live path until the drill or the input ends.
 
     Parameters
@@ -332,6 +332,8 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
         Consumer polling interval, seconds.
     timeout_s : float, optional
         Give up (stop the source) after this much wall-clock time.
+    warn : callable, optional
+        Called with a one-line message when the live path dropped input or results.
 
     Returns
     -------
@@ -358,6 +360,14 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
 
         session.finish()
         raise RunFailure(f"analysis failed: {pipe.error}")
+    msgs = []
+    if pipe.dropped_blocks:
+        msgs.append(f"the analysis fell behind the input and {pipe.dropped_blocks} blocks were dropped; attempt "
+                    "times after the first drop are unreliable (play recordings with --pace 0)")
     if pipe.results.dropped:
-        session.recorder.event("warning", detail={"message": f"{pipe.results.dropped} frames dropped"})
+        msgs.append(f"{pipe.results.dropped} analysis frames were dropped before they were read")
+    for m in msgs:
+        session.recorder.event("warning", detail={"message": m})
+        if warn is not None:
+            warn(m)
     return session.finish()
