@@ -439,3 +439,37 @@ def test_validation_errors():
         lpc(x, order=4, window="triangle")
     with pytest.raises(ValueError, match="r"):
         levinson_durbin(np.array([1.0]))
+
+
+# --------------------------------------------------------------------------
+# batch invariance (the streaming engine analyses one frame per call, the
+# offline path many at once; both must give the same numbers)
+
+
+@pytest.mark.parametrize("method", ["autocorrelation", "burg", "weighted"])
+def test_results_do_not_depend_on_the_batch(method):
+    rng = np.random.default_rng(21)
+    frames = rng.standard_normal((7, 275))
+    a_all = lpc(frames, order=12, method=method, rate_hz=11000.0)
+    f_all, b_all = formant_candidates(a_all, rate_hz=11000.0, max_bandwidth_hz=700.0)
+    for i in (0, 3, 6):
+        a_one = lpc(frames[i:i + 1], order=12, method=method, rate_hz=11000.0)
+        np.testing.assert_array_equal(a_one, a_all[i:i + 1])
+        f_one, b_one = formant_candidates(a_one, rate_hz=11000.0, max_bandwidth_hz=700.0)
+        np.testing.assert_array_equal(f_one, f_all[i:i + 1])
+        np.testing.assert_array_equal(b_one, b_all[i:i + 1])
+
+
+@settings(max_examples=40, deadline=None)
+@given(poles=st.lists(st.tuples(st.floats(100.0, 4800.0), st.floats(20.0, 400.0)), min_size=1, max_size=6,
+                      unique_by=lambda t: round(t[0] / 50.0)))
+def test_formant_candidates_recover_any_pole_set(poles):
+    # closed form: poles placed at (f, B) come back as (f, B), ascending (Markel & Gray 1976)
+    rate = 10000.0
+    freqs, bws = zip(*poles)
+    a = all_pole(freqs, bws, rate)
+    f, b = formant_candidates(a, rate_hz=rate, min_hz=50.0)
+    order = np.argsort(freqs)
+    np.testing.assert_allclose(f[0, :len(freqs)], np.asarray(freqs)[order], rtol=1e-6, atol=1e-3)
+    np.testing.assert_allclose(b[0, :len(freqs)], np.asarray(bws)[order], rtol=1e-5, atol=1e-2)
+    assert np.all(np.isnan(f[0, len(freqs):]))

@@ -177,3 +177,22 @@ def test_gate_validation():
         voicing_hysteresis(np.zeros(2), np.zeros(2), margin_db=-1.0)
     with pytest.raises(ValueError, match="equal length"):
         voicing_hysteresis(np.zeros(2), np.zeros(3))
+
+
+def test_yin_does_not_depend_on_the_batch():
+    rng = np.random.default_rng(5)
+    fr = np.stack([sawtooth(f0, 11000.0, 420) for f0 in (90.0, 180.0, 333.0)]) + 0.05 * rng.standard_normal((3, 420))
+    f_all, a_all = yin(fr, rate_hz=11000.0, f0_min_hz=60.0, f0_max_hz=700.0, fallback=True)
+    for i in range(3):
+        f_one, a_one = yin(fr[i:i + 1], rate_hz=11000.0, f0_min_hz=60.0, f0_max_hz=700.0, fallback=True)
+        np.testing.assert_array_equal(f_one, f_all[i:i + 1])
+        np.testing.assert_array_equal(a_one, a_all[i:i + 1])
+
+
+def test_yin_return_cmnd_matches_cmnd_of_difference_function():
+    x = sawtooth(150.0, 11000.0, 420)[None, :]
+    f0, ap, dp = yin(x, rate_hz=11000.0, f0_min_hz=60.0, f0_max_hz=700.0, return_cmnd=True)
+    tau_max = int(np.ceil(11000.0 / 60.0))
+    ref = cmnd(difference_function(x, max_lag=tau_max + 1, window=420 - tau_max - 1))
+    np.testing.assert_array_equal(dp, ref)
+    assert dp[0, int(round(11000.0 / f0[0]))] == pytest.approx(ap[0], abs=0.05)
