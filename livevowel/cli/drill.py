@@ -31,22 +31,37 @@ examples:
   livevowel drill --list"""
 
 
-def add_drill_options(parser: argparse.ArgumentParser, *, file_positional: bool = True) -> None:
-    """Options shared by ``drill`` and ``practice --drill`` (not the input options)."""
+def add_drill_options(parser: argparse.ArgumentParser, *, file_positional: bool = True,
+                      practice: bool = False) -> None:
+    """Options shared by ``drill`` and ``practice --drill`` (not the input options).
+
+    With ``practice=True`` the options ``practice`` already has (``--config``,
+    ``--speaker-profile``, ``--targets``) are not added again; :func:`prepare`
+    reads them under their practice names.
+    """
     from livevowel.cli import add_config_option
 
     if file_positional:
         parser.add_argument("drill", metavar="FILE", nargs="?",
                             help="drill file (YAML) or the id of a shipped drill (see --list)")
         parser.add_argument("--list", action="store_true", help="list the shipped drills and exit")
-    g = parser.add_argument_group("session")
+    g = parser.add_argument_group("drill session" if practice else "session")
+    if practice:
+        g.add_argument("--drill", metavar="FILE",
+                       help="run a drill (YAML file or shipped drill id; see 'livevowel drill --list'); "
+                            "with --headless: no screen, self-paced")
     g.add_argument("--speaker", metavar="ID", help="pseudonymous speaker id (e.g. S07; never a name)")
-    g.add_argument("--profile", metavar="FILE",
-                   help="speaker profile: judge in the speaker's own space (sets --speaker when not given)")
+    if not practice:
+        g.add_argument("--profile", metavar="FILE",
+                       help="speaker profile: judge in the speaker's own space (sets --speaker when not given)")
     g.add_argument("--voice-group", metavar="G", choices=("adult_male", "adult_female", "child"),
                    help="voice group to record for a new speaker")
-    g.add_argument("--set", dest="target_set", metavar="SET",
-                   help="target set to use instead of the one the drill names")
+    if not practice:
+        g.add_argument("--set", dest="target_set", metavar="SET",
+                       help="target set to use instead of the one the drill names")
+    g.add_argument("--coach", action="store_true",
+                   help="coach-led (screen only): the coach moves on with the right arrow or N, "
+                        "repeats with the left arrow or P; default self-paced")
     g.add_argument("--data", metavar="DIR", help="data folder of the session record "
                    "(default: $LIVEVOWEL_DATA or the user data folder)")
     g.add_argument("--no-clips", action="store_true", help="do not save audio clips of the attempts")
@@ -56,7 +71,8 @@ def add_drill_options(parser: argparse.ArgumentParser, *, file_positional: bool 
     g.add_argument("--seed", metavar="N", type=int, help="seed for shuffled blocks that have none (recorded)")
     g.add_argument("--note", metavar="TEXT", help="a note stored with the session")
     g.add_argument("--quiet", action="store_true", help="print only the summary")
-    add_config_option(parser)
+    if not practice:
+        add_config_option(parser)
 
 
 def configure(parser: argparse.ArgumentParser) -> None:
@@ -88,15 +104,17 @@ def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
     if not args.drill:
         raise UserError("name a drill file or shipped drill (see --list)")
     drill = load_drill(args.drill)
-    settings = config.load(config_file=getattr(args, "config", None))
-    ts = load_target_set(args.target_set or resolve_target_set_ref(drill))
+    settings = getattr(args, "_settings", None) or config.load(config_file=getattr(args, "config", None))
+    set_ref = getattr(args, "target_set", None) or getattr(args, "targets", None)
+    ts = load_target_set(set_ref or resolve_target_set_ref(drill))
     check_targets(drill, ts)
     speaker = args.speaker
     profile = None
-    if args.profile:
+    profile_path = getattr(args, "profile", None) or getattr(args, "speaker_profile", None)
+    if profile_path:
         from livevowel.profile import load_profile
 
-        profile = load_profile(args.profile)
+        profile = load_profile(profile_path)
         if speaker is not None and speaker != profile.speaker_id:
             raise UserError(f"--speaker {speaker} does not match the profile's speaker {profile.speaker_id}")
         speaker = profile.speaker_id
@@ -118,7 +136,7 @@ def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
         seed = secrets.randbelow(2**31 - 1)
     record_settings = {"analysis": settings.values.get("analysis"), "attempts": att.__dict__,
                        "seed": seed, "pause_s": args.pause, "clips": clips,
-                       "profile": args.profile, "pace": getattr(args, "pace", None)}
+                       "profile": profile_path, "pace": getattr(args, "pace", None)}
     sid = rec.start(speaker_id=speaker, voice_group=voice_group,
                     profile=profile.to_dict() if profile is not None else None,
                     target_set=judged_set.id, drill=drill.id, drill_file=str(drill.path) if drill.path else None,
@@ -141,6 +159,11 @@ def run_drill(args: argparse.Namespace) -> int:
     def warn(msg: str) -> None:
         print(f"livevowel {NAME}: warning: {msg}", file=sys.stderr, flush=True)
 
+    if getattr(args, "coach", False):
+        from livevowel.errors import UserError
+
+        raise UserError("coach-led drills need the screen (someone presses the keys); "
+                        "run 'livevowel practice --drill FILE --coach' or leave out --coach")
     session, rec, extra = prepare(args, warn=warn)
     settings = extra["settings"]
     quiet = getattr(args, "quiet", False)
@@ -189,6 +212,69 @@ def print_summary(summary, *, session, recorder, session_id: int, interrupted: b
     else:
         print(f"saved in {recorder.folder} (session {session_id}; "
               f"'livevowel sessions --data {recorder.folder}' lists it)")
+
+
+def run_drill_screen(args: argparse.Namespace, *, settings, options, size=(1280, 800)) -> int:
+    """``practice --drill FILE``: the drill on the practice screen (self-paced, or coach-led with --coach).
+
+    The screen is the display engineer's :class:`~livevowel.ui.screen.PracticeScreen`;
+    the drill drives its current target through a
+    :class:`~livevowel.session.live.DrillController` and rides along the
+    loop's pipeline as a :class:`~livevowel.session.live.DrillFeed`.
+    """
+    from livevowel.audio.options import source_from_args
+    from livevowel.audio.pipeline import LiveSettings
+    from livevowel.dsp.engine import AnalysisSettings
+    from livevowel.session.live import DrillController, DrillFeed
+    from livevowel.session.runner import tapped_pipeline
+    from livevowel.ui import loop
+    from livevowel.ui.app import make_tone
+    from livevowel.ui.screen import PracticeScreen
+
+    def warn(msg: str) -> None:
+        print(f"livevowel practice: warning: {msg}", file=sys.stderr, flush=True)
+
+    args._settings = settings
+    mode = "coach" if getattr(args, "coach", False) else "self_paced"
+    session, rec, extra = prepare(args, mode=mode, warn=warn)
+    if not getattr(args, "quiet", False):
+        session.on_outcome = lambda oc: print(oc.line(), flush=True)
+    live = LiveSettings.from_config(settings)
+    source = source_from_args(args, live=live)
+    pipe = tapped_pipeline(source, analysis=AnalysisSettings.from_config(settings), live=live)
+    ts = extra["target_set"]
+    headless = bool(getattr(args, "headless", False))
+    loop.init_display(headless=headless)
+    tone = make_tone(options, headless=headless)
+    controller = DrillController(session, ts.targets)
+    screen = PracticeScreen(ts, controller, options=options, on_hit=lambda e: tone.play(),
+                            title=f"{extra['drill'].title}  \u00b7  {ts.title}")
+    interrupted = False
+    try:
+        loop.run(screen, DrillFeed(session, pipe), headless=headless, seconds=getattr(args, "seconds", None),
+                 screenshot=getattr(args, "screenshot", None), size=size,
+                 fullscreen=getattr(args, "fullscreen", False), pace=getattr(args, "pace", 1.0) or 0.0,
+                 keep_open=False)
+    except KeyboardInterrupt:
+        interrupted = True
+    summary = session.finish()
+    print_summary(summary, session=session, recorder=rec, session_id=extra["session_id"], interrupted=interrupted)
+    rec.close()
+    return 130 if interrupted else 0
+
+
+def run_practice_drill(args: argparse.Namespace) -> int:
+    """Entry for ``practice --drill``: headless without a screenshot runs with no screen at all."""
+    if getattr(args, "headless", False) and not getattr(args, "screenshot", None):
+        if getattr(args, "coach", False):
+            from livevowel.errors import UserError
+
+            raise UserError("--coach needs the screen (someone presses the keys); leave out --headless or --coach")
+        return run_drill(args)
+    from livevowel.cli._screen_options import parse_size, settings_and_options
+
+    settings, options = settings_and_options(args)
+    return run_drill_screen(args, settings=settings, options=options, size=parse_size(args.size))
 
 
 def run(args: argparse.Namespace) -> int:

@@ -25,7 +25,9 @@ EPILOG = """\
 examples:
   livevowel practice --targets gae-women
   livevowel practice --targets ssbe-men --target trap --theme contrast
-  livevowel practice --targets gae-men --source file:take1.wav"""
+  livevowel practice --targets gae-men --source file:take1.wav
+  livevowel practice --drill front-vowels-five-vowel-l1 --speaker S07
+  livevowel practice --drill my-drill.yaml --headless --source file:take1.wav --pace 0"""
 
 
 def configure(parser: argparse.ArgumentParser) -> None:
@@ -33,13 +35,17 @@ def configure(parser: argparse.ArgumentParser) -> None:
     from livevowel.cli import add_config_option
     from livevowel.cli._screen_options import add_screen_options
 
-    parser.add_argument("--targets", metavar="SET", required=True,
-                        help="target set: a shipped name (see `livevowel targets`) or a YAML file")
+    parser.add_argument("--targets", metavar="SET",
+                        help="target set: a shipped name (see `livevowel targets`) or a YAML file "
+                             "(with --drill: instead of the drill's own set)")
     parser.add_argument("--target", metavar="ID", help="practise only this target (id, IPA symbol or keyword)")
     parser.add_argument("--speaker-profile", metavar="FILE", help="map the regions through this speaker profile")
     add_config_option(parser)
     add_screen_options(parser)
     add_source_options(parser)
+    from livevowel.cli.drill import add_drill_options
+
+    add_drill_options(parser, file_positional=False, practice=True)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -51,6 +57,14 @@ def run(args: argparse.Namespace) -> int:
     from livevowel.cli._screen_options import parse_size, settings_and_options
     from livevowel.ui.app import run_practice
 
+    if getattr(args, "drill", None):
+        from livevowel.cli.drill import run_practice_drill
+
+        return run_practice_drill(args)
+    if not args.targets:
+        from livevowel.errors import UserError
+
+        raise UserError("give a target set with --targets SET (or a drill with --drill FILE)")
     settings, options = settings_and_options(args)
     size = parse_size(args.size)
     source = source_from_args(args, live=LiveSettings.from_config(settings))
