@@ -43,12 +43,13 @@ def outline(surface, points: Sequence[tuple[float, float]], color: RGB, width: i
         pygame.draw.aalines(surface, color, True, points)
 
 
-def disc(surface, x: float, y: float, r: float, color: RGB, alpha: int = 255) -> None:
-    """A filled, anti-aliased disc, blended at ``alpha``."""
+def disc(surface, x: float, y: float, r: float, color: RGB, alpha: int = 255, *, aa: bool = True) -> None:
+    """A filled disc blended at ``alpha``; ``aa`` adds an anti-aliased rim (best when opaque)."""
     xi, yi, ri = int(round(x)), int(round(y)), max(1, int(round(r)))
     c = (*color, int(max(0, min(255, alpha))))
     pygame.gfxdraw.filled_circle(surface, xi, yi, ri, c)
-    pygame.gfxdraw.aacircle(surface, xi, yi, ri, c)
+    if aa:
+        pygame.gfxdraw.aacircle(surface, xi, yi, ri, c)
 
 
 def ring(surface, x: float, y: float, r: float, color: RGB, width: int, alpha: int = 255) -> None:
@@ -83,9 +84,20 @@ def dot_with_trail(surface, trail: Sequence[tuple[float, float, float]], x: floa
     older points are smaller and fainter. The dot's radius and opacity grow
     with ``confidence`` (0..1). Pass ``x=None`` for no dot (trail only).
     """
-    for tx, ty, age in trail:
+    # fill gaps between successive trail points so a fast glide reads as a stroke
+    pts: list[tuple[float, float, float]] = []
+    step = max(2.0, radius * 0.3)
+    for i, p in enumerate(trail):
+        if i:
+            q = trail[i - 1]
+            n = int(math.hypot(p[0] - q[0], p[1] - q[1]) // step)
+            for k in range(1, n):
+                w = k / n
+                pts.append((q[0] + w * (p[0] - q[0]), q[1] + w * (p[1] - q[1]), q[2] + w * (p[2] - q[2])))
+        pts.append(p)
+    for tx, ty, age in pts:
         a = 1.0 - age
-        disc(surface, tx, ty, radius * (0.25 + 0.35 * a), color, int(25 + 110 * a * a))
+        disc(surface, tx, ty, radius * (0.22 + 0.4 * a), color, int(18 + 100 * a * a), aa=False)
     if x is None or y is None:
         return
     c = max(0.0, min(1.0, confidence))

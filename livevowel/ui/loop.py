@@ -27,6 +27,10 @@ from livevowel.errors import UserError
 
 CAUTION_MARKER = "caution-read.txt"
 
+#: Audio waiting for analysis beyond this (seconds) halves the frame rate, so
+#: the display gives way to the analysis on a busy machine.
+BEHIND_S = 0.1
+
 
 def _data_dir() -> Path:
     from livevowel.session.store import data_dir
@@ -142,6 +146,8 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
         from livevowel import CAUTION
 
         screen.caution_text = CAUTION
+    # latency is only meaningful for input that arrives in real time
+    screen.show_latency = pace == 1.0
     res = LoopResult()
     clock = pygame.time.Clock()
     t0 = time.monotonic()
@@ -193,7 +199,11 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
                     break
             if limit_wall is not None and now - t0 > limit_wall:
                 break
-            clock.tick(fps)  # also when headless: sleeping here leaves the CPU to the analysis threads
+            # Sleep to the frame rate (also headless: it leaves the CPU to the analysis threads).
+            # When the analysis falls behind (audio waiting), paint at half the rate.
+            health = screen.health
+            behind = health is not None and getattr(health, "backlog_s", 0.0) > BEHIND_S
+            clock.tick(max(10, fps // 2) if behind else fps)
         if screenshot is not None:
             res.screenshot = save_screenshot(surface, screenshot)
     finally:

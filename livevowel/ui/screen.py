@@ -176,6 +176,8 @@ class PracticeScreen:
         self._plane: Plane | None = None
         self._layout: Layout | None = None
         self.frames_seen = 0
+        #: Show the input-to-result latency (the loop turns it off for input not paced in real time).
+        self.show_latency = True
 
     # ------------------------------------------------------------------ input
     @property
@@ -533,12 +535,17 @@ class PracticeScreen:
         r = D.blit_text(surface, F.text("H  help", small, th.muted_text), rx, cy, "midright")
         r = D.blit_text(surface, F.text(state, size, col, bold=True), r.left - 22 * u, cy, "midright")
         lat = getattr(h, "latency_s", None)
-        if lat is not None and math.isfinite(lat):
+        if not self.show_latency:
+            pass
+        elif lat is not None and math.isfinite(lat):
             r = D.blit_text(surface, F.text(f"latency {lat * 1000:.0f} ms", size, th.text), r.left - 22 * u, cy,
                             "midright")
-        if self.message:
-            D.blit_text(surface, F.text(self.message, small, th.muted_text), lay.plot.left + 6 * u,
-                        lay.plot.bottom - 6 * u, "bottomleft")
+        note = getattr(h, "message", "") or ""
+        msg, col = (note, th.warn) if note and state in ("input lost", "stopped", "starting") \
+            else (self.message, th.muted_text)
+        if msg:
+            D.blit_text(surface, F.text(msg, small, col), lay.plot.left + 6 * u, lay.plot.bottom - 6 * u,
+                        "bottomleft")
 
     def _panel(self, surface, width: int, height: int) -> pygame.Rect:
         th = self.theme
