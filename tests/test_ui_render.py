@@ -205,3 +205,17 @@ def test_ipa_glyphs_need_the_chosen_font(display, fonts):
     assert not renders_glyphs(pygame.font.Font(None, 24), "ɑɛɪʊʌɔɝ")
     assert fonts.regular_path is not None, "no DejaVu Sans found (apt fonts-dejavu-core or pip matplotlib)"
     assert fonts.has_ipa
+
+
+def test_one_target_mode_and_controller_label(display, fonts, tset):
+    from livevowel.feedback import TargetController
+
+    c = TargetController(tset.targets, "trap", locked=True)
+    s = PracticeScreen(tset, c, options=ScreenOptions(trail=False), fonts=fonts)
+    s.handle_event(pygame.event.Event(pygame.KEYDOWN, key=pygame.K_RIGHT, unicode="", mod=0))
+    assert c.current.id == "trap" and "fixed" in s.message
+    s.draw(display, now_s=0.0)
+    header = pygame.surfarray.array3d(display)[:, :s._layout.header.bottom].copy()
+    c.label = "say \u201cbat\u201d  \u00b7  block 1/2 trial 3"  # a drill controller rewrites its label
+    s.draw(display, now_s=0.0)
+    assert not np.array_equal(pygame.surfarray.array3d(display)[:, :s._layout.header.bottom], header)

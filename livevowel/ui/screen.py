@@ -303,12 +303,11 @@ class PracticeScreen:
         return None
 
     def _step(self, fn) -> None:
-        if self.controller.locked:
-            self.message = "one target in this session"
-            return
         if fn():
             self.counter.abandon()
             self.message = ""
+        elif getattr(self.controller, "locked", False):
+            self.message = "the target is fixed in this session"
 
     def target_at(self, x: float, y: float) -> str | None:
         """Id of the region under pixel (x, y) at the last draw's layout, else the
@@ -425,7 +424,7 @@ class PracticeScreen:
         th = self.theme
         size = surface.get_size()
         key = (size, self.theme_name, self.large_text, self.units, self.controller.version,
-               self.controller.current.id, self.fonts.has_ipa)
+               self.controller.current.id, self.fonts.has_ipa, getattr(self.controller, "label", ""))
         if self._static is None or key != self._static_key:
             self._build_static(size)
             self._static_key = key
