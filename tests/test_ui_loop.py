@@ -122,3 +122,42 @@ def test_practice_command_names_an_unknown_target(capsys):
     assert main(["practice", "--targets", "gae-men", "--target", "nope", "--source", "demo", "--headless"]) == 2
     err = capsys.readouterr().err
     assert "nope" in err and "lot" in err
+
+
+def test_regions_and_range_follow_the_speaker_profile(tmp_path):
+    """A speaker whose vowels are all 18% higher than the reference (a uniform
+    scaling, the simplest vocal-tract-length difference) sees every region and
+    the plane's range moved up by that factor."""
+    from livevowel.profile import CalibrationToken, SpeakerProfile
+    from livevowel.ui.app import load_targets
+    from livevowel.ui.geometry import range_for_outlines
+
+    ref = load_target_set("gae-men")
+    k = 1.18
+    toks = [CalibrationToken(t.id, t.f1_hz * k, t.f2_hz * k) for t in ref.targets if t.id in ("fleece", "lot", "goose")]
+    prof = SpeakerProfile.calibrate("S01", toks, ref, voice_group="adult_male", today="2026-01-01")
+    path = tmp_path / "s01.yaml"
+    prof.save(path)
+    mapped = load_targets("gae-men", profile_path=path)
+    lot_ref, lot_me = ref.get("lot"), mapped.get("lot")
+    assert lot_me.f1_hz == pytest.approx(lot_ref.f1_hz * k, rel=0.03)
+    assert lot_me.f2_hz == pytest.approx(lot_ref.f2_hz * k, rel=0.03)
+    r_ref = range_for_outlines([t.outline_hz() for t in ref.targets], units="hz")
+    r_me = range_for_outlines([t.outline_hz() for t in mapped.targets], units="hz")
+    assert r_me.f2_hz[1] == pytest.approx(r_ref.f2_hz[1] * k, rel=0.05)
+    assert r_me.f1_hz[1] == pytest.approx(r_ref.f1_hz[1] * k, rel=0.05)
+
+
+def test_pause_hides_the_dot_and_ignores_frames(tset):
+    loop.init_display(headless=True)
+    s = PracticeScreen(tset, options=ScreenOptions())
+    s.controller.select("lot")
+    s.feed(frames_at(tset.get("lot"), 5), now_s=0.0)
+    assert s.dot_visible(0.01)
+    assert s.handle_event(pygame.event.Event(pygame.KEYDOWN, key=pygame.K_SPACE, unicode=" ", mod=0)) == "pause"
+    assert s.paused and not s.dot_visible(0.01)
+    s.feed(frames_at(tset.get("lot"), 60, t0=0.05), now_s=0.02)
+    assert s.counter.hits == 0 and not s.dot_visible(0.03)
+    s.handle_event(pygame.event.Event(pygame.KEYDOWN, key=pygame.K_SPACE, unicode=" ", mod=0))
+    s.feed(frames_at(tset.get("lot"), 30, t0=1.0), now_s=0.04)
+    assert s.counter.hits == 1 and s.dot_visible(0.05)
