@@ -20,7 +20,7 @@ EPILOG = """\
 examples:
   livevowel demo
   livevowel demo --theme dark --large-text
-  livevowel demo --headless --seconds 20.5 --screenshot assets/demo.png"""
+  livevowel demo --headless --seconds 17.9 --pace 0 --screenshot assets/demo.png"""
 
 
 def configure(parser: argparse.ArgumentParser) -> None:
