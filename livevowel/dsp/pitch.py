@@ -7,6 +7,7 @@ full-scale units, 1.0 = digital full scale) and are vectorised over frames.
 from __future__ import annotations
 
 import functools
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -36,7 +37,7 @@ def _frames_2d(frames, name: str = "frames") -> np.ndarray:
         x = x[np.newaxis, :]
     if x.ndim != 2:
         raise ValueError(f"{name} must have shape (n_frames, N), got {x.shape}")
-    if not np.all(np.isfinite(x)):
+    if not math.isfinite(float(np.add.reduce(x, axis=None))) and not np.isfinite(x).all():
         raise ValueError(f"{name} contains NaN or infinite samples")
     return x
 
@@ -75,12 +76,12 @@ def _lags(rate_hz, f0_min_hz, f0_max_hz) -> tuple[float, int, int]:
         hi = float(f0_max_hz)
     except (TypeError, ValueError):
         raise ValueError("rate_hz, f0_min_hz and f0_max_hz must be numbers in Hz") from None
-    if not (np.isfinite(rate) and rate > 0):
+    if not (math.isfinite(rate) and rate > 0):
         raise ValueError(f"rate_hz must be positive, got {rate_hz!r}")
-    if not (np.isfinite(lo) and np.isfinite(hi) and 0 < lo < hi):
+    if not (math.isfinite(lo) and math.isfinite(hi) and 0 < lo < hi):
         raise ValueError(f"need 0 < f0_min_hz < f0_max_hz, got {f0_min_hz!r} and {f0_max_hz!r}")
-    tau_min = max(2, int(np.floor(rate / hi)))
-    tau_max = int(np.ceil(rate / lo))
+    tau_min = max(2, int(math.floor(rate / hi)))
+    tau_max = int(math.ceil(rate / lo))
     if tau_max <= tau_min:
         raise ValueError(f"F0 range {lo:g}-{hi:g} Hz is too narrow for the sampling rate {rate:g} Hz")
     if hi > rate / 4:
@@ -174,12 +175,7 @@ def cmnd(d: np.ndarray) -> np.ndarray:
 def _cmnd(d: np.ndarray) -> np.ndarray:
     cs = np.cumsum(d[:, 1:], axis=1)
     out = np.ones_like(d)
-    ok = cs > 0
-    cs[~ok] = 1.0
-    q = d[:, 1:] * _lag_index(d.shape[1])
-    q /= cs
-    q[~ok] = 1.0
-    out[:, 1:] = q
+    np.divide(d[:, 1:] * _lag_index(d.shape[1]), cs, out=out[:, 1:], where=cs > 0)
     return out
 
 
