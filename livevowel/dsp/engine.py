@@ -178,6 +178,9 @@ class AnalysisSettings:
         Aperiodicity below which voicing turns on / above which it turns off.
     voicing_floor_db : float
         Level (dB re full scale) below which a frame cannot turn voicing on.
+    voicing_relative_db, voicing_peak_decay_db_per_s : float
+        Frames more than this many dB below the recent peak level are
+        unvoiced; the peak falls this fast (dB/s). See :func:`relative_level`.
     max_bandwidth_hz : float
         Candidates wider than this are not formants (Hz).
     hold_s : float
@@ -207,6 +210,8 @@ class AnalysisSettings:
     voicing_on: float = 0.25
     voicing_off: float = 0.4
     voicing_floor_db: float = -50.0
+    voicing_relative_db: float = 30.0
+    voicing_peak_decay_db_per_s: float = 20.0
     max_bandwidth_hz: float = 700.0
     hold_s: float = 0.05
     smoother_alpha: float = 0.4
@@ -423,7 +428,8 @@ def _pitch(rows: np.ndarray, plan: _Plan, s: AnalysisSettings) -> tuple[np.ndarr
     YIN's first dip below the threshold can be at half the period when the
     second harmonic dominates (F1 near 2 F0). If the cumulative mean
     normalised difference at twice the chosen lag is less than half the
-    chosen one, the doubled lag is taken (de Cheveigné & Kawahara 2002,
+    chosen one (and the chosen one is not already near 0, where both are
+    tiny on a clean periodic signal), the doubled lag is taken (de Cheveigné & Kawahara 2002,
     sec. II.E discuss such "too high" errors).
     """
     f0_max = min(s.f0_max_hz, plan.rate_hz / 4.0)
@@ -437,10 +443,30 @@ def _pitch(rows: np.ndarray, plan: _Plan, s: AnalysisSettings) -> tuple[np.ndarr
         tau2 = np.where(ok, np.rint(2.0 * plan.rate_hz / np.where(ok, f0, 1.0)), 0).astype(int)
         fits = ok & (tau2 <= tau_max)
         d2 = np.where(fits, dp[np.arange(len(f0)), np.clip(tau2, 0, tau_max)], np.inf)
-        down = fits & (d2 < 0.5 * ap)
+        down = fits & (ap > 0.03) & (d2 < 0.5 * ap)
         f0 = np.where(down, f0 / 2.0, f0)
         ap = np.where(down, d2, ap)
     return f0, ap
+
+
+def relative_level(level_db: np.ndarray, s: AnalysisSettings, peak_db: float | None) -> tuple[np.ndarray, float | None]:
+    """Levels as the voicing gate sees them: frames far below the recent peak count as silent.
+
+    A peak follower (instant rise, fall ``voicing_peak_decay_db_per_s``)
+    tracks the loudest recent frame; a frame more than
+    ``voicing_relative_db`` below it is passed to the gate as -200 dB, so a
+    formant filter still ringing after the voice stopped, or room noise
+    between words, is not taken as voicing. Sequential (causal) and the same
+    recursion in both paths. Returns the gate levels and the final peak.
+    """
+    lv = np.asarray(level_db, dtype=np.float64)
+    out = lv.copy()
+    decay = s.voicing_peak_decay_db_per_s * s.hop_s
+    for i in range(len(lv)):
+        peak_db = lv[i] if peak_db is None else max(float(lv[i]), peak_db - decay)
+        if lv[i] < peak_db - s.voicing_relative_db:
+            out[i] = -200.0
+    return out, peak_db
 
 
 def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np.ndarray, *,
@@ -564,7 +590,8 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
         warns.append(f"input of {len(x)} samples is shorter than one {1e3 * s.window_s:g} ms window; no frames")
     ks = np.arange(n_frames)
     feat = _features(plan, s, xa, 0, ks, pitch=True)
-    voiced, _ = voicing_hysteresis(feat["aper"], feat["level_db"], on_threshold=s.voicing_on,
+    gate_level, _ = relative_level(feat["level_db"], s, None)
+    voiced, _ = voicing_hysteresis(feat["aper"], gate_level, on_threshold=s.voicing_on,
                                    off_threshold=s.voicing_off, floor_db=s.voicing_floor_db)
     if n_frames and np.all(feat["level_db"] <= -119.0):
         warns.append("input is digital silence; every frame is unvoiced")
@@ -759,6 +786,7 @@ class StreamingAnalyzer:
         self._hop_s = pplan.hop / pplan.rate_hz
         self._hold_frames = int(math.floor(s.hold_s / self._hop_s + 1e-9))
         self._gate_state = False
+        self._peak_db: float | None = None
         self._costs = s.costs()
         self._tracker = CausalTracker(self._costs)
         self._smoother = DisplaySmoother(alpha_min=s.smoother_alpha, jump=s.smoother_jump)
@@ -868,8 +896,9 @@ class StreamingAnalyzer:
 
     def _make_record(self, k: int, p: dict, cand: dict | None) -> dict:
         s = self.settings
+        gate_level, self._peak_db = relative_level(np.array([p["level_db"]]), s, self._peak_db)
         voiced_arr, self._gate_state = voicing_hysteresis(
-            np.array([p["aper"]]), np.array([p["level_db"]]), on_threshold=s.voicing_on,
+            np.array([p["aper"]]), gate_level, on_threshold=s.voicing_on,
             off_threshold=s.voicing_off, floor_db=s.voicing_floor_db, initial=self._gate_state)
         voiced = bool(voiced_arr[0])
         f0 = float(p["f0_hz"]) if voiced else float("nan")

@@ -1,0 +1,293 @@
+"""Engine behaviour: settings, input handling, framing, resampling, voicing, gaps, bad input.
+
+Formant values are Peterson & Barney (1952) group means (from memory);
+signals come from the project's Klatt (1980) cascade synthesiser, whose
+ground truth is known exactly.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.signal import resample_poly
+
+from livevowel import config
+from livevowel.dsp import framing
+from livevowel.dsp.engine import AnalysisSettings, BadSamples, StreamingAnalyzer, analyze, voice_from_f0
+from livevowel.dsp.resample import StreamResampler, rational_ratio, resample
+from livevowel.dsp.synth import Schedule, Segment, render, synthesize_vowel
+from livevowel.errors import UserError
+
+# Peterson & Barney (1952) means, Hz (from memory)
+MEN = {"i": (270.0, 2290.0, 3010.0), "u": (300.0, 870.0, 2240.0), "ɑ": (730.0, 1090.0, 2440.0)}
+WOMEN = {"i": (310.0, 2790.0, 3310.0), "u": (370.0, 950.0, 2670.0), "ɑ": (850.0, 1220.0, 2810.0)}
+
+MALE = AnalysisSettings(voice="adult_male")
+FEMALE = AnalysisSettings(voice="adult_female")
+
+
+def vowel(formants, f0=120.0, rate=16000, seconds=0.5, voice="man", seed=0, **kw):
+    return synthesize_vowel(formants_hz=formants, f0_hz=f0, duration_s=seconds, rate_hz=rate, voice=voice,
+                            seed=seed, **kw)
+
+
+def medians(track):
+    v = track.voiced & np.isfinite(track.f1_hz)
+    return np.nanmedian(track.f1_hz[v]), np.nanmedian(track.f2_hz[v])
+
+
+# ---------------------------------------------------------------- settings
+def test_from_config_defaults_and_units():
+    s = AnalysisSettings.from_config(config.load())
+    assert s.window_s == pytest.approx(0.025) and s.hop_s == pytest.approx(0.010)
+    assert s.hold_s == pytest.approx(0.050) and s.auto_settle_s == pytest.approx(0.5)
+    assert s.voice == "auto" and s.method == "dap" and s.taper == "gaussian"
+
+
+def test_from_config_overrides_and_tracking_weights():
+    st = config.load(overrides={"analysis": {"voice": "child", "hop_ms": 5.0}})
+    st.values["analysis"]["transition_cost"] = 3.0
+    s = AnalysisSettings.from_config(st)
+    assert s.voice == "child" and s.hop_s == pytest.approx(0.005) and s.w_trans == 3.0
+
+
+def test_bad_settings_raise_clear_errors():
+    with pytest.raises(ValueError, match="voice"):
+        AnalysisSettings(voice="baritone")
+    with pytest.raises(ValueError, match="method"):
+        AnalysisSettings(method="magic")
+    st = config.load()
+    st.values["analysis"]["voicing_on"] = 0.9   # above voicing_off
+    with pytest.raises(UserError, match="voicing_on"):
+        AnalysisSettings.from_config(st)
+
+
+def test_lpc_order_and_rate_follow_the_voice():
+    x = vowel(MEN["ɑ"], rate=44100, seconds=0.3)
+    for voice, rate in (("adult_male", 10000), ("adult_female", 11000), ("child", 16000)):
+        r = analyze(x, 44100, settings=AnalysisSettings(voice=voice))
+        assert r.analysis_rate_hz == rate and r.ceiling_hz == rate / 2
+        assert r.order == 12          # 5 formants below the ceiling: 2 * 5 + 2 (common practice)
+    r = analyze(x, 44100, settings=AnalysisSettings(voice="adult_male", ceiling_hz=4500.0))
+    assert r.analysis_rate_hz == 9000
+
+
+# ---------------------------------------------------------------- framing / resampling
+def test_frame_times_are_window_centres_in_input_time():
+    x = vowel(MEN["ɑ"], rate=48000, seconds=0.3)
+    fr = analyze(x, 48000, settings=MALE).frames
+    # 25 ms window = 250 samples at 10 kHz: centre (250 - 1) / 2 / 10000 s; 10 ms hop
+    assert fr.time_s[0] == pytest.approx(0.01245)
+    np.testing.assert_allclose(np.diff(fr.time_s), 0.010)
+    assert len(fr) == (3000 - 250) // 100 + 1
+
+
+def test_pre_emphasis_coefficient_formula():
+    # a = exp(-2 pi fc / fs): 50 Hz at 10 kHz -> 0.96907 (Markel & Gray 1976 form)
+    assert framing.pre_emphasis_coefficient(50.0, 10000.0) == pytest.approx(np.exp(-np.pi / 100), rel=1e-12)
+    assert framing.pre_emphasis_coefficient(0.0, 10000.0) == 0.0
+
+
+def test_condition_frames_removes_dc():
+    rows = np.full((2, 101), 0.3) + np.random.default_rng(0).standard_normal((2, 101)) * 1e-3
+    out = framing.condition_frames(rows, coef=0.97, window=np.ones(100))
+    assert np.max(np.abs(out)) < 0.01
+
+
+@pytest.mark.parametrize("rates", [(48000, 10000), (44100, 11000), (8000, 10000), (96000, 16000), (22050, 16000)])
+def test_stream_resampler_matches_scipy_resample_poly(rates):
+    fin, fout = rates
+    x = np.random.default_rng(1).standard_normal(3001)
+    up, down = rational_ratio(fin, fout)
+    ref = resample_poly(x, up, down)          # scipy reference
+    np.testing.assert_allclose(resample(x, in_rate_hz=fin, out_rate_hz=fout), ref)
+    rs = StreamResampler(fin, fout)
+    y = np.concatenate([rs.process(x[:1000]), rs.process(x[1000:1001]), rs.process(x[1001:]), rs.flush()])
+    assert len(y) == len(ref)
+    np.testing.assert_allclose(y, ref, atol=1e-12)
+
+
+def test_stream_resampler_delay():
+    rs = StreamResampler(44100, 11000)
+    assert rs.delay_s == pytest.approx(0.001)   # 11 output samples at 11 kHz
+    got = 0
+    for i in range(441):
+        got += len(rs.process(np.zeros(10)))
+        if got:
+            # first output (time 0) needs input up to time delay_s
+            assert (i + 1) * 10 / 44100 >= rs.delay_s
+            break
+
+
+# ---------------------------------------------------------------- input handling
+def test_int16_and_stereo_input_scale_and_downmix():
+    x = vowel(MEN["ɑ"])
+    xi = np.round(x * 32767).astype(np.int16)
+    a = analyze(xi, 16000, settings=MALE).frames
+    b = analyze(xi.astype(np.float64) / 32768.0, 16000, settings=MALE).frames
+    np.testing.assert_array_equal(a.f1_hz, b.f1_hz)
+    np.testing.assert_allclose(a.level_db, b.level_db)
+    st = analyze(np.column_stack([x, x]), 16000, settings=MALE).frames
+    mono = analyze(x, 16000, settings=MALE).frames
+    np.testing.assert_allclose(st.f1_hz, mono.f1_hz)
+    assert np.nanmax(a.level_db) < 0
+
+
+def test_level_of_a_full_scale_sine_is_minus_3_dbfs():
+    t = np.arange(16000) / 16000
+    x = np.sin(2 * np.pi * 220 * t)
+    fr = analyze(x, 16000, settings=MALE).frames
+    # RMS of a full-scale sine = 1/sqrt(2) -> -3.01 dBFS (definition of dBFS, common practice)
+    assert np.median(fr.level_db) == pytest.approx(-3.01, abs=0.1)
+
+
+@pytest.mark.parametrize("bad", [np.nan, np.inf, -np.inf])
+def test_non_finite_samples_raise_a_clear_value_error(bad):
+    x = vowel(MEN["ɑ"], seconds=0.2)
+    x[100] = bad
+    with pytest.raises(ValueError, match="NaN or infinite.*index 100"):
+        analyze(x, 16000)
+    with pytest.raises(BadSamples):
+        StreamingAnalyzer(16000).process(x)
+    assert issubclass(BadSamples, UserError)   # the CLI prints it as one line
+
+
+def test_bad_rate_and_dtype():
+    with pytest.raises(ValueError, match="rate"):
+        analyze(np.zeros(100), 4000)
+    with pytest.raises(ValueError, match="rate"):
+        analyze(np.zeros(100), 16000.5)
+    with pytest.raises(ValueError, match="numbers"):
+        analyze(np.array(["a", "b"]), 16000)
+    with pytest.raises(ValueError, match="shape"):
+        analyze(np.zeros((10, 2, 2)), 16000)
+
+
+@pytest.mark.parametrize("causal", [False, True])
+@pytest.mark.parametrize("n", [0, 1, 300])
+def test_empty_and_too_short_input(n, causal):
+    r = analyze(np.zeros(n), 16000, causal=causal)
+    assert len(r.frames) == 0
+    assert any("shorter than one" in w for w in r.warnings)
+
+
+@pytest.mark.parametrize("causal", [False, True])
+def test_all_zeros_is_all_unvoiced(causal):
+    r = analyze(np.zeros(8000), 16000, settings=MALE, causal=causal)
+    assert len(r.frames) > 40
+    assert not r.frames.voiced.any()
+    assert np.all(np.isnan(r.frames.f1_hz)) and np.all(r.frames.confidence == 0)
+    assert any("silence" in w for w in r.warnings)
+
+
+def test_dc_offset_does_not_move_formants():
+    x = vowel(MEN["ɑ"]) * 0.5
+    f1, f2 = medians(analyze(x, 16000, settings=MALE).frames)
+    g1, g2 = medians(analyze(x + 0.3, 16000, settings=MALE).frames)
+    assert abs(g1 / f1 - 1) < 0.02 and abs(g2 / f2 - 1) < 0.02
+
+
+def test_clipping_is_reported_and_formants_stay_plausible():
+    x = np.clip(vowel(MEN["ɑ"]) * 6.0, -1.0, 1.0)
+    r = analyze(x, 16000, settings=MALE)
+    assert any("clipping" in w for w in r.warnings)
+    f1, f2 = medians(r.frames)
+    assert 600 < f1 < 900 and 900 < f2 < 1400
+
+
+def test_telephone_rate_caps_the_ceiling_with_a_warning():
+    x = vowel(MEN["ɑ"], rate=8000)
+    r = analyze(x, 8000, settings=MALE)
+    assert r.ceiling_hz == 4000 and r.analysis_rate_hz == 8000
+    assert r.order == 10             # 4 formants below 4 kHz
+    assert any("limits the formant ceiling" in w for w in r.warnings)
+    f1, f2 = medians(r.frames)
+    assert abs(f1 / 730 - 1) < 0.05 and abs(f2 / 1090 - 1) < 0.05
+
+
+def test_96k_input_gives_the_same_formants_as_16k():
+    a = medians(analyze(vowel(MEN["ɑ"], rate=96000), 96000, settings=MALE).frames)
+    b = medians(analyze(vowel(MEN["ɑ"], rate=16000), 16000, settings=MALE).frames)
+    assert abs(a[0] / b[0] - 1) < 0.02 and abs(a[1] / b[1] - 1) < 0.02
+
+
+# ---------------------------------------------------------------- voice
+def test_voice_from_f0_bounds():
+    assert voice_from_f0(120) == "adult_male"
+    assert voice_from_f0(210) == "adult_female"
+    assert voice_from_f0(300) == "child"
+
+
+@pytest.mark.parametrize("f0,voice,expect", [(120.0, "man", "adult_male"), (210.0, "woman", "adult_female"),
+                                             (300.0, "child", "child")])
+def test_auto_voice_decides_from_median_f0(f0, voice, expect):
+    x = vowel(MEN["ɑ"] if voice == "man" else WOMEN["ɑ"], f0=f0, voice=voice, seconds=0.4)
+    assert analyze(x, 16000, settings=AnalysisSettings(voice="auto")).voice == expect
+
+
+# ---------------------------------------------------------------- coarse facts (common practice)
+@pytest.mark.parametrize("group,table,settings,f0,voice", [("men", MEN, MALE, 120.0, "man"),
+                                                           ("women", WOMEN, FEMALE, 210.0, "woman")])
+@pytest.mark.parametrize("causal", [False, True])
+def test_coarse_vowel_facts(group, table, settings, f0, voice, causal):
+    got = {v: medians(analyze(vowel(F, f0=f0, voice=voice, seconds=0.4), 16000, settings=settings,
+                              causal=causal).frames) for v, F in table.items()}
+    # common practice: adult /i/ F1 < ~400 and F2 > ~2000 Hz; /u/ F2 < ~1200 Hz; /ɑ/ F1 > ~600 Hz
+    assert got["i"][0] < 400 and got["i"][1] > 2000
+    assert got["u"][1] < 1200
+    assert got["ɑ"][0] > 600
+
+
+# ---------------------------------------------------------------- voicing, gaps
+def _gappy(gap_s: float):
+    sch = Schedule((
+        Segment(duration_s=0.3, f0_start_hz=120.0, formants_hz=MEN["ɑ"]),
+        Segment(duration_s=gap_s, kind="silent"),
+        Segment(duration_s=0.3, f0_start_hz=120.0, formants_hz=MEN["ɑ"]),
+    ), voice="man")
+    y, truth = render(sch, rate_hz=16000, seed=0, peak_dbfs=-6.0)
+    return y, truth
+
+
+def test_unvoiced_and_silent_stretches_are_reported_unvoiced():
+    sch = Schedule((
+        Segment(duration_s=0.2, kind="silent"),
+        Segment(duration_s=0.3, f0_start_hz=120.0, formants_hz=MEN["ɑ"]),
+        Segment(duration_s=0.3, kind="noise", formants_hz=MEN["i"]),
+        Segment(duration_s=0.2, kind="silent"),
+    ), voice="man")
+    y, truth = render(sch, rate_hz=16000, seed=0, peak_dbfs=-6.0)
+    for causal in (False, True):
+        fr = analyze(y, 16000, settings=MALE, causal=causal).frames
+        kind = truth.at(fr.time_s)["kind"]
+        # frames wholly inside a stretch (window half-length 12.5 ms plus a hop from the edges)
+        edge = np.array([np.min(np.abs(fr.time_s[i] - np.array([0.2, 0.5, 0.8]))) for i in range(len(fr))])
+        inner = edge > 0.03
+        assert not fr.voiced[inner & (kind != 1)].any()
+        assert fr.voiced[inner & (kind == 1)].mean() > 0.95
+        assert np.all(np.isnan(fr.f0_hz[~fr.voiced]))
+
+
+@pytest.mark.parametrize("causal", [False, True])
+def test_short_dropout_is_held_long_silence_resets(causal):
+    y, _ = _gappy(0.045)
+    fr = analyze(y, 16000, settings=MALE, causal=causal).frames
+    gap = (fr.time_s > 0.3) & (fr.time_s < 0.345) & ~fr.voiced
+    assert gap.any()
+    assert np.all(np.isfinite(fr.f1_hz[gap]))            # held through a 45 ms gap
+    assert abs(np.nanmedian(fr.f1_hz[gap]) / 730 - 1) < 0.05
+    assert np.all(fr.confidence[gap] == 0)
+    y, _ = _gappy(0.25)
+    fr = analyze(y, 16000, settings=MALE, causal=causal).frames
+    deep = (fr.time_s > 0.42) & (fr.time_s < 0.5)
+    assert np.all(~fr.voiced[deep]) and np.all(np.isnan(fr.f1_hz[deep]))   # reset after 50 ms
+
+
+def test_confidence_is_high_on_clean_vowels_and_lower_in_noise():
+    x = vowel(MEN["ɑ"])
+    clean = analyze(x, 16000, settings=MALE).frames
+    rng = np.random.default_rng(0)
+    noisy = analyze(x + rng.standard_normal(len(x)) * 0.05, 16000, settings=MALE).frames
+    assert np.median(clean.confidence[clean.voiced]) > 0.6
+    assert np.all((clean.confidence >= 0) & (clean.confidence <= 1))
+    assert np.median(noisy.confidence[noisy.voiced]) < np.median(clean.confidence[clean.voiced])
