@@ -197,6 +197,7 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
             if pipeline.done and not frames:
                 if headless or not keep_open:
                     break
+                screen.message = "the input has ended  ·  Esc to quit"
             if limit_wall is not None and now - t0 > limit_wall:
                 break
             # Sleep to the frame rate (also headless: it leaves the CPU to the analysis threads).
