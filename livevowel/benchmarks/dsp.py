@@ -251,6 +251,44 @@ def _plain_on_frames(x: np.ndarray, times_s: np.ndarray, *, rate_hz: float, orde
     return out
 
 
+def estimator_costs(*, quick: bool) -> list[dict]:
+    """CPU microseconds per frame of each frame-level estimator, one frame per call and in batches.
+
+    Frames as the engine uses them for a woman's voice: 25 ms at 11 kHz
+    (275 samples), order 12, YIN window of two periods of 60 Hz (369 samples).
+    """
+    from livevowel.dsp.lpc import formant_candidates, lpc
+    from livevowel.dsp.pitch import frame_level_db, yin, yin_frame_length
+
+    rate = 11000.0
+    rng = np.random.default_rng(0)
+    n_batch = 100 if quick else 1000
+    reps_one = 50 if quick else 400
+    x = rng.standard_normal((n_batch, 275))
+    xp = rng.standard_normal((n_batch, yin_frame_length(rate_hz=rate, f0_min_hz=60.0)))
+    a = lpc(x, order=12)
+    jobs = [
+        ("frame_level_db", lambda f, p, c: frame_level_db(f)),
+        ("yin", lambda f, p, c: yin(p, rate_hz=rate, f0_min_hz=60.0, f0_max_hz=700.0, fallback=True)),
+        ("lpc autocorrelation", lambda f, p, c: lpc(f, order=12, method="autocorrelation")),
+        ("lpc burg", lambda f, p, c: lpc(f, order=12, method="burg")),
+        ("lpc weighted (SWLP)", lambda f, p, c: lpc(f, order=12, method="weighted", rate_hz=rate)),
+        ("lpc weighted (WLP)", lambda f, p, c: lpc(f, order=12, method="weighted", rate_hz=rate, stabilized=False)),
+        ("formant_candidates", lambda f, p, c: formant_candidates(c, rate_hz=rate, max_bandwidth_hz=700.0)),
+    ]
+    rows = []
+    for name, fn in jobs:
+        c0 = time.thread_time()
+        for _ in range(reps_one):
+            fn(x[:1], xp[:1], a[:1])
+        one = (time.thread_time() - c0) / reps_one
+        c0 = time.thread_time()
+        fn(x, xp, a)
+        batch = (time.thread_time() - c0) / n_batch
+        rows.append({"estimator": name, "one_frame_us": one * 1e6, "batched_us_per_frame": batch * 1e6})
+    return rows
+
+
 # ---------------------------------------------------------------------------
 # the suite
 
@@ -283,6 +321,14 @@ def run(*, quick: bool, out: Callable[[str], None]) -> dict:
     out(f"  (CPU = this thread's CPU time per call; this process got {100 * share:.0f} % of one core "
         f"over the streaming runs -- well below 100 % means other load on the machine)")
     figures["streaming_cpu_share"] = share
+
+    out("")
+    out("Frame-level estimators (livevowel.dsp.lpc / pitch): CPU time per frame, woman's-voice frame sizes")
+    out(f"  {'estimator':<24}{'1 frame/call us':>17}{'batched us/frame':>18}")
+    costs = estimator_costs(quick=quick)
+    for r in costs:
+        out(f"  {r['estimator']:<24}{r['one_frame_us']:>17.1f}{r['batched_us_per_frame']:>18.1f}")
+    figures["estimators"] = costs
 
     sp = offline_speed(x, repeat=1 if quick else 3)
     ok_rtf = sp["engine_rtf"] >= GOAL_RTF
