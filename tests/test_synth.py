@@ -203,6 +203,55 @@ def test_spectrum_envelope_peaks_at_peterson_barney_formants(vowel):
         assert abs(nearest - target) <= max(40.0, 0.06 * target), (vowel, target, found)
 
 
+@pytest.mark.parametrize("formants, f0, rate, n_formants", [
+    ((730.0, 1090.0, 2440.0), 125.0, 10000.0, 4),    # P&B men /ɑ/ (from memory), F0 rounded
+    ((270.0, 2290.0, 3010.0), 200.0, 16000.0, 5),    # P&B men /i/ (from memory)
+])
+def test_output_spectrum_is_klglott88_source_times_klatt_cascade(formants, f0, rate, n_formants):
+    # With an integer period (rate / F0 samples), the steady output is exactly
+    # periodic: its harmonics must be the harmonics of the sampled, first-
+    # differenced KLGLOTT88 pulse (Klatt & Klatt 1990) times the response of
+    # the cascade of Klatt (1980) resonators (F4/F5 of the man's voice; F5 is
+    # left out at 10 kHz), up to one real constant gain.
+    oq = 0.6
+    period = int(round(rate / f0))
+    y = synthesize_vowel(formants_hz=formants, f0_hz=f0, duration_s=1.0, rate_hz=rate, open_quotient=oq,
+                         peak_dbfs=None)
+    n = np.arange(period)
+    tau = (n - (1.0 - oq) * period) / (oq * period)
+    u = np.where(tau >= 0.0, 6.75 * tau ** 2 * (1.0 - tau), 0.0)
+    e = u - np.roll(u, 1)                                    # radiation: first difference
+    reps = 40
+    E = np.fft.rfft(np.tile(e, reps))
+    Y = np.fft.rfft(y[reps * period:2 * reps * period])     # after the onset transient
+    k = np.arange(1, int(0.45 * rate / f0))
+    H = np.ones(len(k), complex)
+    fm = tuple(formants) + synth.VOICE_GROUPS["man"]
+    for f, bw in list(zip(fm, DEFAULT_BANDWIDTHS_HZ))[:n_formants]:
+        a, b, c = resonator_coefficients(f, bw, rate_hz=rate)
+        H *= freqz([a], [1.0, -b, -c], worN=k * f0, fs=rate)[1]
+    ratio = Y[reps * k] / (E[reps * k] * H)
+    np.testing.assert_allclose(ratio, ratio[0], rtol=1e-8)
+    assert abs(ratio[0].imag) < 1e-8 * abs(ratio[0]) and ratio[0].real > 0
+
+
+def test_harmonic_peaks_sit_at_peterson_barney_formants():
+    # an independent look at the envelope: local maxima of the harmonic
+    # amplitudes lie within one harmonic of each formant (P&B 1952 men, from memory)
+    rate, f0 = 10000.0, 125.0
+    period = 80
+    for vowel in ("ɑ", "i", "u", "ɛ"):
+        _, f1, f2, f3 = PB_MEN[vowel]
+        y = synthesize_vowel(formants_hz=(f1, f2, f3), f0_hz=f0, duration_s=0.7, rate_hz=rate)
+        seg = y[int(0.2 * rate):int(0.2 * rate) + 40 * period]
+        spec = np.abs(np.fft.rfft(seg))
+        k = np.arange(1, 38)
+        amp = 20 * np.log10(spec[40 * k])
+        peaks = k[1:-1][(amp[1:-1] > amp[:-2]) & (amp[1:-1] > amp[2:])] * f0
+        for target in (f1, f2, f3):
+            assert np.min(np.abs(peaks - target)) <= f0, (vowel, target, peaks)
+
+
 @pytest.mark.parametrize("f0, rate", [
     (100.0, 16000.0), (124.0, 10000.0), (220.0, 16000.0), (480.0, 16000.0),
     (500.0, 8000.0), (310.0, 44100.0), (95.0, 96000.0),
