@@ -236,23 +236,32 @@ def test_stream_through_paced_source_equals_offline_causal_analysis(tmp_path):
 
 def test_noise_floor_sets_the_engine_voicing_floor(tmp_path):
     # 1 s of noise at -50 dBFS, then a vowel: the floor is measured in the first
-    # second and the engine runs with voicing_floor_db = floor + margin.
+    # second; there the engine is restarted with voicing_floor_db = floor + margin.
     rate = RATE
     rng = np.random.default_rng(5)
     x = synthesize_vowel(formants_hz=PB_A, f0_hz=120.0, duration_s=1.0, rate_hz=rate)
     y = np.concatenate([np.zeros(rate), x, np.zeros(rate // 5)]) + rng.normal(0, 10 ** (-50 / 20), 2 * rate + rate // 5)
+    y = y.astype(np.float32)
     sf.write(str(tmp_path / "n.wav"), y, rate, subtype="FLOAT")
     live = LiveSettings(noise_margin_db=6.0)
     pipe = LivePipeline(PacedFileSource(tmp_path / "n.wav", pace=0), settings=MALE, live=live)
     track = _run(pipe)
     h = pipe.health()
     assert h.noise_floor_db == pytest.approx(-50.0, abs=1.0) and h.floor_used
-    assert pipe.analysis_settings.voicing_floor_db == pytest.approx(h.noise_floor_db + 6.0)
+    raised = pipe.analysis_settings
+    assert raised.voicing_floor_db == pytest.approx(h.noise_floor_db + 6.0)
     assert h.snr_db == pytest.approx(float(np.mean(track.level_db[track.voiced])) + 50.0, abs=3.0)
-    ref = analyze(y.astype(np.float32), rate, settings=pipe.analysis_settings, causal=True).frames
-    np.testing.assert_array_equal(track.voiced, ref.voiced)
-    np.testing.assert_array_equal(track.f1_hz, ref.f1_hz)
+    # before: the configured settings on the first second; after: the raised floor from 1.0 s on
+    first = analyze(y[:rate], rate, settings=MALE, causal=True).frames
+    rest = analyze(y[rate:], rate, settings=raised, causal=True).frames
+    assert len(track) == len(first) + len(rest)
+    np.testing.assert_array_equal(track.time_s, np.concatenate([first.time_s, rest.time_s + 1.0]))
+    for name in ("voiced", "f1_hz", "f2_hz", "level_db"):
+        np.testing.assert_array_equal(getattr(track, name),
+                                      np.concatenate([getattr(first, name), getattr(rest, name)]), err_msg=name)
     assert not track.voiced[track.time_s < 0.95].any()
+    v = track.voiced
+    assert np.nanmedian(track.f1_hz[v]) == pytest.approx(PB_A[0], rel=0.1)
 
 
 def test_stalled_consumer_drops_oldest_results_and_counts_them(tmp_path):

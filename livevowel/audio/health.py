@@ -62,6 +62,9 @@ class InputHealth:
         Estimated input-to-result delay now: algorithmic delay + backlog + lag, seconds.
     seconds : float
         Audio received so far, seconds.
+    analysis_load : float
+        Time the worker spent analysing per second of audio (above 1.0 the
+        machine cannot keep up and latency grows).
     message : str
         Last event worth showing ("input lost: ...", a source error), or "".
     """
@@ -81,6 +84,7 @@ class InputHealth:
     lag_s: float = 0.0
     latency_s: float = math.nan
     seconds: float = 0.0
+    analysis_load: float = 0.0
     message: str = ""
 
 

@@ -14,13 +14,14 @@ Threads and hand-offs::
         drain() -> list[Frame]; health() -> InputHealth
 
 Noise floor and voicing: the engine takes a level below which a frame cannot
-turn voicing on (``AnalysisSettings.voicing_floor_db``). The pipeline holds
-the first ``live.noise_floor_s`` seconds of the session (about 1 s; nothing
-is shown meanwhile), measures the floor there, and -- when it looks like a
-room rather than a voice (at most ``live.max_noise_floor_db``) -- starts the
-engine with ``voicing_floor_db = max(configured, floor + noise_margin_db)``,
-then analyses the held audio and goes on live. ``noise_margin_db=None``
-turns this off (no hold; the configured engine settings are used as they are).
+turn voicing on (``AnalysisSettings.voicing_floor_db``). The pipeline
+measures the floor over the first ``live.noise_floor_s`` seconds (about 1 s)
+while analysing with the configured settings. If the floor looks like a room
+rather than a voice (at most ``live.max_noise_floor_db``) and floor +
+``live.noise_margin_db`` is above the configured voicing floor, the engine is
+flushed and restarted there with ``voicing_floor_db = floor + margin`` (frame
+times continue; in a quiet room nothing changes). ``noise_margin_db=None``
+turns this off.
 
 After an input loss the engine state is flushed and a fresh analyzer starts
 on the returning input; its frame times continue on the wall clock (the
@@ -147,12 +148,12 @@ class LivePipeline(Sink):
         self._last_wait_s = 0.0
         self._budget_static: dict[str, float] | None = None
         self.frames_out = 0
+        self.busy_s = 0.0
         self.error: BaseException | None = None
         self._record_to = record_to
         self.recorder: WavRecorder | None = None
         #: Engine settings in use (voicing floor raised once the noise floor is known).
         self.analysis_settings = self.settings
-        self._held: list[tuple[Block, np.ndarray]] = []
         self._floor_settled = self.live.noise_margin_db is None
 
     # -- Sink (source thread) --------------------------------------------
@@ -248,7 +249,7 @@ class LivePipeline(Sink):
             snr_db=float(m.snr_db), overflows=m.overflows, dropped=self.results.dropped,
             dropped_blocks=self.dropped_blocks, backlog_s=backlog, lag_s=m.lag_s,
             latency_s=algorithmic + backlog + m.lag_s + self._last_wait_s, seconds=m.seconds,
-            message=self._message)
+            analysis_load=self.busy_s / m.seconds if m.seconds > 0 else 0.0, message=self._message)
 
     def latency_budget(self, *, consumer_poll_s: float = 0.0) -> dict[str, float]:
         """Algorithmic delay per stage, seconds (worst case per stage).
@@ -325,15 +326,12 @@ class LivePipeline(Sink):
             self._state = "listening"
             if self._message.startswith("input"):
                 self._message = ""
-        if not self._floor_settled:
-            self._held.append((blk, mono))
-            if blk.segment > 0 or not math.isnan(self._meter.noise_floor_db):
-                self._settle_floor()
-            return
         self._analyze(blk, mono)
+        if not self._floor_settled and not math.isnan(self._meter.noise_floor_db):
+            self._settle_floor()
 
     def _settle_floor(self) -> None:
-        """Fix the engine's voicing floor from the measured noise floor; analyse the held audio."""
+        """Raise the engine's voicing floor from the measured noise floor (restarting the engine there)."""
         if self._floor_settled:
             return
         self._floor_settled = True
@@ -343,9 +341,7 @@ class LivePipeline(Sink):
             floor = m.noise_floor_db + float(self.live.noise_margin_db)
             if floor > self.settings.voicing_floor_db:
                 self.analysis_settings = replace(self.settings, voicing_floor_db=floor)
-        held, self._held = self._held, []
-        for blk, mono in held:
-            self._analyze(blk, mono)
+                self._end_segment()
 
     def _analyze(self, blk: Block, mono: np.ndarray) -> None:
         from livevowel.dsp.engine import StreamingAnalyzer
@@ -358,7 +354,10 @@ class LivePipeline(Sink):
             self._analyzer = StreamingAnalyzer(blk.rate_hz, settings=self.analysis_settings)
             self._seg = blk.segment
             self._seg_offset_s = blk.start_time_s
-        self._emit(self._analyzer.process(mono))
+        t0 = time.perf_counter()
+        track = self._analyzer.process(mono)
+        self.busy_s += time.perf_counter() - t0
+        self._emit(track)
 
     def _end_segment(self) -> None:
         if self._analyzer is not None:

@@ -24,6 +24,7 @@ SUITES: dict[str, str] = {
     "display": "display",
     "synth": "synth",
     "targets": "targets",
+    "live": "live",
 }
 
 
