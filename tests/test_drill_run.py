@@ -187,15 +187,6 @@ def test_each_attempt_and_the_summary_are_printed(recorded):
     assert "1:fk" in out and "3/4" in out and "fleece" in out and "session 1 finished" in out
 
 
-def test_clips_can_be_turned_off(tmp_path, recorded):
-    rc = main(["drill", str(recorded["drill"]), "--source", f"file:{recorded['short']}", "--pace", "0",
-               "--data", str(tmp_path / "d"), "--no-clips", "--quiet"])
-    assert rc == 0
-    rows = Store.open(tmp_path / "d").attempts(1)
-    assert len(rows) == 2 and all(r["clip"] is None for r in rows)
-    assert not (tmp_path / "d" / "clips").exists()
-
-
 def test_coach_override_is_stored_beside_the_automatic_result(recorded, tmp_path):
     from livevowel.dsp.engine import analyze
     from livevowel.session.drills import load_drill
@@ -301,3 +292,46 @@ def test_export_unknown_session(recorded, tmp_path, capsys):
     assert main(["export", "99", "--csv", str(tmp_path / "x.csv"), "--data", str(recorded["data"])]) == 2
     assert "no session 99" in capsys.readouterr().err
     assert not (tmp_path / "x.csv").exists()
+
+
+def test_practice_drill_headless_runs_without_a_screen_and_clips_can_be_off(tmp_path, capsys, recorded):
+    rc = main(["practice", "--drill", str(recorded["drill"]), "--headless", "--source", f"file:{recorded['short']}",
+               "--pace", "0", "--data", str(tmp_path), "--speaker", "S14", "--no-clips"])
+    out = capsys.readouterr().out
+    assert rc == 0 and "trials 2, hits 2" in out
+    rows = Store.open(tmp_path).attempts(1)
+    assert [r["auto_hit"] for r in rows] == [1, 1] and Store.open(tmp_path).session(1)["speaker_id"] == "S14"
+    assert all(r["clip"] is None for r in rows) and not (tmp_path / "clips").exists()
+    assert main(["practice", "--drill", str(recorded["drill"]), "--headless", "--coach", "--data", str(tmp_path)]) == 2
+
+
+def test_practice_drill_on_the_screen(tmp_path, capsys, recorded):
+    shot = tmp_path / "drill.png"
+    rc = main(["practice", "--drill", str(recorded["drill"]), "--headless", "--screenshot", str(shot),
+               "--source", f"file:{recorded['short']}", "--pace", "0", "--data", str(tmp_path / "d"),
+               "--no-tone", "--size", "640x400"])
+    out = capsys.readouterr().out
+    assert rc == 0 and shot.exists()
+    assert "trials 2, hits 2" in out
+    rows = Store.open(tmp_path / "d").attempts(1)
+    assert [r["target_id"] for r in rows] == ["fleece", "kit"] and all(r["clip"] for r in rows)
+
+
+def test_drill_controller_follows_prompts_and_takes_coach_keys(tmp_path, recorded):
+    from livevowel.session.drills import load_drill
+    from livevowel.session.live import DrillController
+    from livevowel.session.runner import DrillSession
+    from livevowel.session.store import SessionRecorder
+    from livevowel.targets import load_target_set
+
+    ts = load_target_set("gae-men")
+    rec = SessionRecorder(folder=tmp_path)
+    rec.start(mode="coach")
+    sess = DrillSession(load_drill(recorded["drill"]), ts, rec, mode="coach")
+    ctl = DrillController(sess, ts.targets)
+    assert ctl.current.id == "fleece" and "say \u201cbeat\u201d" in ctl.label and "block 1/2 trial 1" in ctl.label
+    sess.run.attempt(True, now_s=1.0)
+    assert ctl.next() and ctl.current.id == "kit"
+    assert ctl.previous() and ctl.current.id == "kit" and "trial 2" in ctl.label
+    assert ctl.skip_block() and ctl.current.id == "dress"
+    assert not ctl.select("lot")
