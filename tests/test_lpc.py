@@ -433,6 +433,8 @@ def test_validation_errors():
         formant_candidates(np.array([1.0, 0.5, 0.2]), rate_hz=-1)
     with pytest.raises(ValueError, match="weight_window"):
         weighted_lpc(x, order=4, weight_window=0)
+    with pytest.raises(ValueError, match="weight_window"):
+        weighted_lpc(x, order=4, weight_window=7.5)
     with pytest.raises(ValueError, match="weights"):
         weighted_lpc(x, order=4, weights=np.ones(10))
     with pytest.raises(ValueError, match="window"):

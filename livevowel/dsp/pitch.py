@@ -335,7 +335,7 @@ def voicing_hysteresis(aperiodicity, level_db, *, on_threshold: float = 0.2, off
     return voiced.astype(bool), state
 
 
-@dataclass
+@dataclass(kw_only=True)
 class VoicingGate:
     """Streaming wrapper around :func:`voicing_hysteresis` that keeps the state.
 
