@@ -33,7 +33,7 @@ examples:
   livevowel targets show gae-men --profile me.yaml --scale bark
   livevowel targets check my-accent.yaml
   livevowel targets calibrate s07.yaml --speaker S07 --group adult_female \\
-      --set gae-men --token i=310,2790 --token ɑ=850,1220 --token u=370,950"""
+      --set gae-men --token i=437,2761 --token ɑ=936,1551 --token u=459,1105"""
 
 
 def add_targets_option(parser: argparse.ArgumentParser, *, default: str | None = None,
