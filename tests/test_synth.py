@@ -552,3 +552,56 @@ def test_flutter_moves_f0_as_klatt_and_klatt_1990_and_truth_follows():
     # each period is 1 / F0 at its start (jitter off)
     f0_starts = truth.at(truth.period_starts_s)["f0_hz"]
     np.testing.assert_allclose(truth.periods_s, 1.0 / f0_starts, rtol=1e-9)
+
+
+@st.composite
+def schedules(draw):
+    segs = []
+    for _ in range(draw(st.integers(1, 5))):
+        kind = draw(st.sampled_from(["voiced", "voiced", "noise", "silent"]))
+        dur = draw(st.floats(0.005, 0.15))
+        f1 = draw(st.floats(200.0, 900.0))
+        f2 = draw(st.floats(f1 + 100.0, 2600.0))
+        f3 = draw(st.floats(max(f2 + 100.0, 1800.0), 3500.0))
+        segs.append(Segment(
+            dur, kind,
+            draw(st.floats(60.0, 450.0)) if kind == "voiced" else None,
+            draw(st.floats(60.0, 450.0)) if kind == "voiced" else None,
+            (f1, f2, f3) if kind != "silent" or draw(st.booleans()) else None,
+            transition_s=draw(st.floats(0.0, 1.0)) * dur,
+            transition=draw(st.sampled_from(["smooth", "linear"])),
+            level_db=draw(st.floats(-20.0, 6.0))))
+    return Schedule(tuple(segs), voice=draw(st.sampled_from(["man", "woman", "child"])),
+                    jitter_pct=draw(st.floats(0.0, 3.0)), shimmer_db=draw(st.floats(0.0, 1.0)),
+                    aspiration_db=draw(st.one_of(st.none(), st.floats(-40.0, 0.0))),
+                    ramp_s=draw(st.floats(0.0, 0.03)), flutter_pct=draw(st.floats(0.0, 30.0)))
+
+
+@settings(max_examples=20, deadline=None)
+@given(schedules(), st.sampled_from([8000.0, 16000.0]), st.integers(1, 400), st.integers(0, 2**31 - 1))
+def test_any_schedule_renders_finite_and_splits_exactly(schedule, rate, block, seed):
+    whole, truth = render(schedule, rate_hz=rate, seed=seed)
+    assert whole.shape == (int(round(schedule.duration_s * rate)),)
+    assert np.all(np.isfinite(whole)) and np.max(np.abs(whole), initial=0.0) < 20.0
+    voice = KlattVoice(schedule, rate_hz=rate, seed=seed)
+    parts = []
+    while voice.position < len(whole):
+        parts.append(voice.render(min(block, len(whole) - voice.position)))
+    if parts:
+        np.testing.assert_array_equal(np.concatenate(parts), whole)
+    t = np.arange(len(whole)) / rate
+    got = truth.at(t)
+    kinds = {"silent": 0, "voiced": 1, "noise": 2}
+    edges = np.cumsum([0.0] + [s.duration_s for s in schedule.segments])
+    for s, a, b in zip(schedule.segments, edges[:-1], edges[1:]):
+        inside = (t >= a + 1.0 / rate) & (t < b - 1.0 / rate)
+        assert np.all(got["kind"][inside] == kinds[s.kind])
+        assert np.all(np.isnan(got["f1_hz"][inside]) == (s.kind != "voiced"))
+
+
+def test_truth_keeps_the_shape_of_the_times_and_is_nan_outside():
+    _, truth = render(GLIDE, rate_hz=16000.0)
+    got = truth.at(np.array([[-0.5, 0.3], [0.6, 9.0]]))
+    assert got["f1_hz"].shape == (2, 2)
+    np.testing.assert_array_equal(got["voiced"], [[False, True], [True, False]])
+    assert np.isnan(got["f0_hz"][0, 0]) and np.isnan(got["f2_hz"][1, 1])
