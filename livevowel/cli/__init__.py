@@ -30,8 +30,10 @@ COMMAND_MODULES: tuple[str, ...] = (
     "practice",
     "demo",
     "drill",
+    "review",
     "sessions",
     "export",
+    "report",
     "bench",
     "config_cmd",
 )

@@ -1,11 +1,11 @@
-"""``livevowel export``: write a session's attempts as a CSV table."""
+"""``livevowel export``: write a session's (or a speaker's) attempts as CSV or JSON."""
 
 from __future__ import annotations
 
 import argparse
 
 NAME = "export"
-SUMMARY = "write the attempts of a recorded session as CSV"
+SUMMARY = "write the attempts of a recorded session, or a speaker's history, as CSV or JSON"
 DESCRIPTION = """\
 Write every attempt of session SESSION (see 'livevowel sessions') as one
 CSV row: times (seconds of stream time), block, trial, prompt, target, the
@@ -16,11 +16,17 @@ the clip file. Empty cells mean "not measured" or "not judged". The file is
 written atomically. --track adds each attempt's whole frame track as JSON
 in a last column.
 
+--speaker ID exports every session of that speaker (the whole history).
+--format json writes one document instead: the speaker, each session with
+its settings, summary per target and per block, events and attempts (with
+--track, each attempt's frame track).
+
 The export carries the speaker's pseudonymous id only; local rules on
 health-data privacy apply to what you do with it."""
 EPILOG = """\
-example:
-  livevowel export 12 --csv session12.csv --data ./clinic-data"""
+examples:
+  livevowel export 12 --csv session12.csv --data ./clinic-data
+  livevowel export --speaker S07 --format json --out S07-history.json"""
 
 #: CSV columns, in order (all from the attempts table except those marked).
 CSV_COLUMNS = (
@@ -33,8 +39,13 @@ CSV_COLUMNS = (
 
 
 def configure(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("session", metavar="SESSION", type=int, help="session number (see 'livevowel sessions')")
-    parser.add_argument("--csv", metavar="FILE", required=True, help="write the CSV here ('-' for standard output)")
+    parser.add_argument("session", metavar="SESSION", type=int, nargs="?",
+                        help="session number (see 'livevowel sessions')")
+    parser.add_argument("--speaker", metavar="ID", help="export every session of this speaker instead")
+    parser.add_argument("--csv", metavar="FILE", help="write the CSV here ('-' for standard output)")
+    parser.add_argument("--format", choices=("csv", "json"), default=None,
+                        help="csv (default; one row per attempt) or json (sessions, summaries, events, attempts)")
+    parser.add_argument("--out", metavar="FILE", help="write the export here ('-' for standard output)")
     parser.add_argument("--track", action="store_true", help="add the frame track of each attempt (JSON column)")
     parser.add_argument("--data", metavar="DIR",
                         help="data folder of the session record (default: $LIVEVOWEL_DATA or the user data folder)")
@@ -74,11 +85,41 @@ def run(args: argparse.Namespace) -> int:
     from livevowel.fileio import atomic_writer
     from livevowel.session.store import Store, data_dir
 
+    from livevowel.errors import UserError
+
+    if (args.session is None) == (args.speaker is None):
+        raise UserError("name a SESSION number or --speaker ID (one of them)")
+    out = args.out or args.csv
+    if out is None or (args.out and args.csv):
+        raise UserError("give the output file once: --out FILE (or --csv FILE); '-' for standard output")
+    fmt = args.format or "csv"
+    if args.csv and fmt != "csv":
+        raise UserError("--csv writes CSV; use --out FILE with --format json")
     store = Store.open(data_dir(args.data), create=False)
     try:
-        rows = rows_for_csv(store, args.session, track=args.track)
+        if fmt == "json":
+            from livevowel.report.export_json import dumps, history_json
+
+            text = dumps(history_json(store, session_id=args.session, speaker_id=args.speaker, track=args.track))
+        elif args.speaker is not None:
+            ids = [int(r["id"]) for r in store.sessions(speaker_id=args.speaker)]
+            if not ids:
+                raise UserError(f"speaker {args.speaker} has no sessions in {store.folder}")
+            rows = [r for i in ids for r in rows_for_csv(store, i, track=args.track)]
+        else:
+            rows = rows_for_csv(store, args.session, track=args.track)
     finally:
         store.close()
+    what = f"session {args.session}" if args.speaker is None else f"speaker {args.speaker}"
+    if fmt == "json":
+        if out == "-":
+            sys.stdout.write(text)
+        else:
+            from livevowel.fileio import write_text_atomic
+
+            write_text_atomic(out, text)
+            print(f"{what} written to {out} (JSON)", file=sys.stderr)
+        return 0
     cols = list(CSV_COLUMNS) + (["track_json"] if args.track else [])
 
     def write(fh) -> None:
@@ -87,10 +128,10 @@ def run(args: argparse.Namespace) -> int:
         for r in rows:
             w.writerow([_cell(r.get(c)) for c in cols])
 
-    if args.csv == "-":
+    if out == "-":
         write(sys.stdout)
     else:
-        with atomic_writer(args.csv, newline="") as fh:
+        with atomic_writer(out, newline="") as fh:
             write(fh)
-        print(f"{len(rows)} attempts of session {args.session} written to {args.csv}", file=sys.stderr)
+        print(f"{len(rows)} attempts of {what} written to {out}", file=sys.stderr)
     return 0
