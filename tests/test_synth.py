@@ -605,3 +605,41 @@ def test_truth_keeps_the_shape_of_the_times_and_is_nan_outside():
     assert got["f1_hz"].shape == (2, 2)
     np.testing.assert_array_equal(got["voiced"], [[False, True], [True, False]])
     assert np.isnan(got["f0_hz"][0, 0]) and np.isnan(got["f2_hz"][1, 1])
+
+
+def test_inverse_filtering_with_truth_recovers_the_klglott88_source():
+    # Undo the time-varying cascade sample by sample with the formants and
+    # bandwidths Truth reports (x[n] = (y[n] - B y[n-1] - C y[n-2]) / A, the
+    # exact inverse of a Klatt 1980 resonator), then compare with the source
+    # rebuilt from Truth's glottal periods (KLGLOTT88, Klatt & Klatt 1990):
+    # both must agree if Truth holds what the synthesiser used.
+    rate, oq = 16000.0, 0.6
+    sch = Schedule((
+        Segment(0.25, "voiced", 140.0, 120.0, (300.0, 870.0, 2240.0), transition_s=0.15),
+        Segment(0.25, "voiced", 120.0, 150.0, (270.0, 2290.0, 3010.0), transition_s=0.1, transition="linear"),
+        Segment(0.20, "voiced", 150.0, 110.0, (730.0, 1090.0, 2440.0), bandwidths_hz=(80.0, 110.0, 160.0)),
+    ), jitter_pct=1.5, shimmer_db=0.5, open_quotient=oq)
+    y, truth = render(sch, rate_hz=rate, seed=9)
+    n = np.arange(len(y))
+    got = truth.at(n / rate)
+    f4, f5 = synth.VOICE_GROUPS["man"]
+    tracks = [(got[f"f{j}_hz"], got[f"b{j}_hz"]) for j in (1, 2, 3)]
+    tracks += [(np.full(len(y), f4), np.full(len(y), DEFAULT_BANDWIDTHS_HZ[3])),
+               (np.full(len(y), f5), np.full(len(y), DEFAULT_BANDWIDTHS_HZ[4]))]
+    x = y.copy()
+    for f, bw in reversed(tracks):
+        a, b, c = resonator_coefficients(f, bw, rate_hz=rate)
+        prev = np.concatenate([[0.0], x[:-1]])
+        prev2 = np.concatenate([[0.0, 0.0], x[:-2]])
+        x = (x - b * prev - c * prev2) / a
+    # the source from Truth's periods
+    t = n / rate
+    g, T, amp = truth.period_starts_s, truth.periods_s, truth.pulse_amplitudes
+    k = np.clip(np.searchsorted(g, t, side="right") - 1, 0, None)
+    tau = (t - g[k] - (1.0 - oq) * T[k]) / (oq * T[k])
+    inside = (t >= g[k]) & (t < g[k] + T[k]) & (tau >= 0)
+    u = np.where(inside, amp[k] * 6.75 * tau ** 2 * (1.0 - tau), 0.0)
+    e = np.diff(np.concatenate([[0.0], u]))
+    scale = np.dot(x, e) / np.dot(e, e)
+    assert scale > 0
+    np.testing.assert_allclose(x / scale, e, atol=1e-7 * np.max(np.abs(e)))
