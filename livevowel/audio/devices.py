@@ -85,6 +85,22 @@ def list_input_devices(sd=None) -> list[InputDevice]:
     return out
 
 
+def all_device_names(sd=None) -> list[str]:
+    """Names of every device PortAudio sees, inputs or not (for messages)."""
+    sd = sd or import_sounddevice()
+    try:
+        return [f"{d['name']} ({d['max_input_channels']} in, {d['max_output_channels']} out)" for d in sd.query_devices()]
+    except sd.PortAudioError:
+        return []
+
+
+def no_input_message(sd=None) -> str:
+    """The one-line message for a machine with no input device."""
+    seen = all_device_names(sd)
+    what = f"PortAudio sees only {', '.join(seen)}" if seen else "PortAudio sees no audio device at all"
+    return f"no input device found ({what}); {ALTERNATIVES}"
+
+
 def describe_devices(devices: list[InputDevice]) -> str:
     """One line per device, for messages."""
     if not devices:

@@ -107,9 +107,14 @@ class HealthMeter:
         A floor louder than this is reported but not used for gating, dBFS.
     clip_level : float
         Absolute sample value counted as clipped (full scale 1.0).
+    pace : float
+        Pace of the source (1.0 for devices): lag compares delivered audio
+        with wall time x pace; 0 (as fast as possible) measures no lag.
     """
 
-    def __init__(self, *, floor_s: float = 1.0, max_floor_db: float = -35.0, clip_level: float = 0.99) -> None:
+    def __init__(self, *, floor_s: float = 1.0, max_floor_db: float = -35.0, clip_level: float = 0.99,
+                 pace: float = 1.0) -> None:
+        self.pace = float(pace)
         self.floor_s = float(floor_s)
         self.max_floor_db = float(max_floor_db)
         self.clip_level = float(clip_level)
@@ -155,10 +160,13 @@ class HealthMeter:
             if end_s >= self.floor_s - 1e-9 or segment > 0:
                 self._settle_floor()
         # delivered audio against wall time
+        if self.pace <= 0:
+            return
         if segment != self._seg:
-            self._seg, self._seg_t0, self._seg_samples, self._min_deficit = segment, received_s - n / rate_hz, 0, math.inf
+            self._seg, self._seg_samples, self._min_deficit = segment, 0, math.inf
+            self._seg_t0 = received_s - n / rate_hz / self.pace
         self._seg_samples += n
-        deficit = (received_s - self._seg_t0) - self._seg_samples / rate_hz
+        deficit = (received_s - self._seg_t0) - self._seg_samples / rate_hz / self.pace
         self._min_deficit = min(self._min_deficit, deficit)
         self.lag_s = max(0.0, deficit - self._min_deficit)
 

@@ -15,7 +15,8 @@ import time
 import numpy as np
 
 from livevowel.audio.base import Block, Sink, Source
-from livevowel.audio.devices import ALTERNATIVES, InputDevice, import_sounddevice, list_input_devices, resolve_device
+from livevowel.audio.devices import (ALTERNATIVES, InputDevice, import_sounddevice, list_input_devices,
+                                    no_input_message, resolve_device)
 from livevowel.errors import UserError
 
 #: Callback durations kept for percentiles (a ring; older ones are overwritten).
@@ -60,7 +61,10 @@ class MicrophoneSource(Source):
                  rate_hz: float | None = None, block_s: float = 0.010, latency: "str | float" = "low",
                  lost_after_s: float = 1.0, retry_s: float = 2.0, startup_s: float = 5.0) -> None:
         self._sd = import_sounddevice()
-        self.device: InputDevice = resolve_device(device, list_input_devices(self._sd))
+        inputs = list_input_devices(self._sd)
+        if not inputs:
+            raise UserError(no_input_message(self._sd))
+        self.device: InputDevice = resolve_device(device, inputs)
         if channel is not None:
             channel = int(channel)
             if not 0 <= channel < self.device.channels:

@@ -8,9 +8,10 @@
 
 Both deliver blocks on a pacing thread: at pace 1.0 a block is handed over
 when its last sample would have been captured by a microphone, so timing
-behaves like live input; pace 2.0 runs twice as fast; pace 0 runs as fast as
-the sink takes it, waiting while the sink's backlog is high (back-pressure,
-no drops).
+behaves like live input (a slow consumer drops, as with a device); pace 2.0
+runs at most twice as fast; pace 0 runs as fast as the sink takes it. At any
+pace other than 1.0 the source waits while the sink's backlog is high
+(back-pressure, no drops).
 """
 
 from __future__ import annotations
@@ -94,9 +95,13 @@ class _PacedSource(Source):
                         if wait <= 0:
                             break
                         time.sleep(min(wait, 0.05))
-                else:
+                if self.pace != 1.0:
+                    # faster than real time: "at most this fast", never outrunning the sink
+                    waited = time.monotonic()
                     while sink.backlog_s() > BACKLOG_HIGH_S and not self._stop.is_set():
                         time.sleep(0.001)
+                    if self.pace > 0:
+                        t0 += time.monotonic() - waited
                 if self._stop.is_set():
                     break
                 sink.on_block(Block(samples=x, rate_hz=self.rate_hz, start_time_s=pos / self.rate_hz,

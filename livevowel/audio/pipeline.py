@@ -137,7 +137,7 @@ class LivePipeline(Sink):
         self.on_block_count = 0
         self._wake = threading.Event()
         self._meter = HealthMeter(floor_s=self.live.noise_floor_s, max_floor_db=self.live.max_noise_floor_db,
-                                  clip_level=self.live.clip_level)
+                                  clip_level=self.live.clip_level, pace=getattr(source, "pace", 1.0))
         self._state = "starting"
         self._message = ""
         self._paused = False

@@ -22,14 +22,14 @@ def run(args: argparse.Namespace) -> int:
     import json
     from dataclasses import asdict
 
-    from livevowel.audio.devices import ALTERNATIVES, list_input_devices
+    from livevowel.audio.devices import list_input_devices, no_input_message
 
     devices = list_input_devices()
     if args.json:
         print(json.dumps([asdict(d) for d in devices], indent=1))
         return 0
     if not devices:
-        print(f"no input devices found; {ALTERNATIVES}")
+        print(no_input_message())
         return 1
     wname = max(4, max(len(d.name) for d in devices))
     wapi = max(8, max(len(d.host_api) for d in devices))

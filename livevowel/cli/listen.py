@@ -78,6 +78,7 @@ def status_line(t_s: float, frame, health) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
+    import shutil
     from pathlib import Path
 
     from livevowel import config
@@ -117,7 +118,8 @@ def run(args: argparse.Namespace) -> int:
             elapsed = time.monotonic() - t_start
             shown_t = last.time_s if last is not None else 0.0
             if tty:
-                sys.stdout.write("\r" + status_line(shown_t, last, h) + "\x1b[K")
+                width = max(20, shutil.get_terminal_size().columns - 1)   # one screen line, or \r cannot rewrite it
+                sys.stdout.write("\r" + status_line(shown_t, last, h)[:width] + "\x1b[K")
                 sys.stdout.flush()
             elif elapsed >= next_plain:
                 print(status_line(shown_t, last, h), flush=True)
