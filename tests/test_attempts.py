@@ -148,3 +148,65 @@ def test_settings_validation():
         AttemptSettings(min_duration_s=-1)
     with pytest.raises(ValueError):
         AttemptSettings(min_duration_s=1.0, max_duration_s=0.5)
+
+
+# -- judgement ---------------------------------------------------------------------
+
+def _attempt_at(f1, f2, dur=0.3):
+    from livevowel.session.attempts import measure_attempt
+
+    return measure_attempt(FrameTrack.from_frames(frames([(dur, True, f1, f2)])))
+
+
+def test_judge_hit_miss_closeness_and_nearest():
+    from livevowel.session.judge import judge
+    from livevowel.targets import closeness_from_distance, load_target_set
+
+    ts = load_target_set("gae-men")
+    fleece, kit = ts.get("fleece"), ts.get("kit")
+    j = judge(_attempt_at(fleece.f1_hz, fleece.f2_hz), ts, "fleece", hit_size_sd=1.5)
+    assert j.hit is True and j.closeness == pytest.approx(100.0) and j.nearest_id == "fleece"
+    # KIT's centre said for a FLEECE prompt: a miss that sounded like KIT; the score is the
+    # set's own formula at the same hit size (50 on the edge)
+    j = judge(_attempt_at(kit.f1_hz, kit.f2_hz), ts, "FLEECE", hit_size_sd=1.5)
+    d = fleece.distance(kit.f1_hz, kit.f2_hz)
+    assert d > 1.5 and j.hit is False and j.nearest_id == "kit" and j.reason == "outside the target"
+    assert j.closeness == pytest.approx(float(closeness_from_distance(d, 1.5)))
+    assert j.target_id == "fleece"
+    # the same point is a hit with a region large enough to hold it
+    assert judge(_attempt_at(kit.f1_hz, kit.f2_hz), ts, "fleece", hit_size_sd=d + 0.1).hit is True
+
+
+def test_judge_hold_time_and_flagged_attempts():
+    from livevowel.session.judge import judge
+    from livevowel.targets import load_target_set
+
+    ts = load_target_set("gae-men")
+    t = ts.get("lot")
+    # 150 ms inside LOT, then 150 ms at GOOSE: the median sits on one side; the longest stay inside is 150 ms
+    a = measure_attempt(FrameTrack.from_frames(frames([(0.16, True, t.f1_hz, t.f2_hz), (0.15, True, 378, 997)])))
+    j = judge(a, ts, "lot", hit_size_sd=1.5, hold_s=0.3)
+    assert j.time_in_target_s == pytest.approx(0.16) and j.hit is False and "held 0.16 s of 0.30 s" in j.reason
+    assert judge(a, ts, "lot", hit_size_sd=1.5, hold_s=0.1).hit is True
+    short = _attempt_at(t.f1_hz, t.f2_hz, dur=0.05)
+    j = judge(short, ts, "lot")
+    assert j.hit is None and "too_short" in j.reason and j.nearest_id == "lot"
+
+
+def test_judge_in_the_speakers_space():
+    """A speaker whose formants are all 18 % above the set's (a shorter vocal tract): with the
+    profile the centres move with the voice (Nearey 1978 log-mean scaling, one factor)."""
+    from livevowel.profile import CalibrationToken, SpeakerProfile
+    from livevowel.session.judge import judge
+    from livevowel.targets import load_target_set
+
+    ts = load_target_set("gae-men")
+    k = 1.18
+    tokens = [CalibrationToken(v, ts.get(v).f1_hz * k, ts.get(v).f2_hz * k) for v in ("fleece", "lot", "goose")]
+    prof = SpeakerProfile.calibrate("S20", tokens, ts, voice_group="adult_female", method="nearey-shared")
+    mapped = prof.map_set(ts)
+    t = ts.get("dress")
+    a = _attempt_at(t.f1_hz * k, t.f2_hz * k)
+    assert judge(a, ts, "dress", hit_size_sd=1.5).hit is False
+    j = judge(a, mapped, "dress", hit_size_sd=1.5, speaker_space=True)
+    assert j.hit is True and j.speaker_space and j.closeness > 95

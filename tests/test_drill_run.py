@@ -335,3 +335,25 @@ def test_drill_controller_follows_prompts_and_takes_coach_keys(tmp_path, recorde
     assert ctl.previous() and ctl.current.id == "kit" and "trial 2" in ctl.label
     assert ctl.skip_block() and ctl.current.id == "dress"
     assert not ctl.select("lot")
+
+
+def test_coach_judges_afterwards_beside_the_automatic_result(recorded, tmp_path, capsys):
+    import shutil
+
+    data = tmp_path / "copy"
+    shutil.copytree(recorded["data"], data)
+    assert main(["sessions", "1", "--attempt", "3", "--result", "hit", "--note", "fine by ear",
+                 "--data", str(data)]) == 0
+    s = Store.open(data)
+    r = s.attempts(1)[2]
+    assert (r["auto_hit"], r["override_hit"], r["override_note"]) == (0, 1, "fine by ear")
+    assert s.summary(1).hits == 5
+    assert main(["sessions", "1", "--attempt", "3", "--result", "exclude", "--data", str(data)]) == 0
+    r = Store.open(data).attempts(1)[2]
+    assert r["counted"] == 0 and r["override_hit"] == 1 and Store.open(data).summary(1).trials == 5
+    assert main(["sessions", "1", "--attempt", "3", "--result", "auto", "--data", str(data)]) == 0
+    r = Store.open(data).attempts(1)[2]
+    assert r["override_hit"] is None and r["override_note"] == "fine by ear" and r["auto_hit"] == 0
+    capsys.readouterr()
+    assert main(["sessions", "1", "--attempt", "99", "--result", "hit", "--data", str(data)]) == 2
+    assert "no attempt 99" in capsys.readouterr().err

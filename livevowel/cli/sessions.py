@@ -13,12 +13,17 @@ accuracy. With a session number, show that session's summary per block and
 per target and its attempts. A session whose end time is missing was
 stopped abruptly (everything up to its last committed attempt is kept).
 
+A coach's judgement of an attempt (--attempt N --result ...) and a note
+are stored beside the automatic judgement, which is never changed; the
+result that counts is the coach's when there is one.
+
 Use the numbers with 'livevowel export SESSION --csv FILE'."""
 EPILOG = """\
 examples:
   livevowel sessions
   livevowel sessions --speaker S07 --data ./clinic-data
-  livevowel sessions 12"""
+  livevowel sessions 12
+  livevowel sessions 12 --attempt 3 --result hit --note 'clear FLEECE to my ear'"""
 
 
 def configure(parser: argparse.ArgumentParser) -> None:
@@ -26,6 +31,12 @@ def configure(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--speaker", metavar="ID", help="only this speaker's sessions")
     parser.add_argument("--data", metavar="DIR",
                         help="data folder of the session record (default: $LIVEVOWEL_DATA or the user data folder)")
+    g = parser.add_argument_group("coach's judgement (with SESSION)")
+    g.add_argument("--attempt", metavar="N", type=int, help="the attempt to judge or annotate")
+    g.add_argument("--result", choices=("hit", "miss", "auto", "exclude", "include"),
+                   help="hit or miss (the coach's judgement), auto (back to the automatic one), "
+                        "exclude / include (leave out of / take back into the counts)")
+    g.add_argument("--note", metavar="TEXT", help="a note on the attempt")
 
 
 def _pct(hits: int, trials: int) -> str:
@@ -37,11 +48,33 @@ def _when(utc: str | None) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
+    import sqlite3
+
     from livevowel.session.store import Store, data_dir
+
+    from livevowel.errors import UserError
 
     folder = data_dir(args.data)
     store = Store.open(folder, create=False)
     try:
+        if args.attempt is not None or args.result or args.note:
+            if args.session is None or args.attempt is None or not (args.result or args.note):
+                raise UserError("to judge an attempt give SESSION, --attempt N and --result and/or --note")
+            store.session(args.session)
+            kw: dict = {}
+            if args.result in ("hit", "miss"):
+                kw["hit"] = args.result == "hit"
+            elif args.result == "auto":
+                kw["hit"] = None
+            elif args.result in ("exclude", "include"):
+                kw["counted"] = args.result == "include"
+            try:
+                store.set_override(args.session, args.attempt, note=args.note, **kw)
+            except sqlite3.OperationalError as exc:
+                raise UserError(f"{store.path}: cannot write the session record ({exc})") from None
+            print(f"session {args.session} attempt {args.attempt}: "
+                  + ", ".join(p for p in (args.result and f"result {args.result}", args.note and "note saved") if p))
+            return 0
         if args.session is not None:
             return _show(store, args.session)
         rows = store.sessions(speaker_id=args.speaker)

@@ -66,8 +66,14 @@ LEVERS = ("hit_size", "hold", "item")
 MODES = ("self_paced", "coach")
 _ID = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
 
-#: Folder of the shipped drills (top-level ``targets/drills``).
-SHIPPED_DIR = Path(__file__).resolve().parents[2] / "targets" / "drills"
+
+
+def shipped_dir() -> Path:
+    """Folder of the shipped drills: ``drills/`` in the target-set folder
+    (:func:`livevowel.targets.targets_dir`, i.e. top-level ``targets/drills``)."""
+    from livevowel.targets import targets_dir
+
+    return targets_dir() / "drills"
 
 
 @dataclass(frozen=True)
@@ -357,7 +363,7 @@ def load_drill(path_or_name: "str | Path") -> Drill:
 
     p = Path(path_or_name)
     if not p.exists() and not p.suffix:
-        cand = SHIPPED_DIR / f"{path_or_name}.yaml"
+        cand = shipped_dir() / f"{path_or_name}.yaml"
         if cand.exists():
             p = cand
     if not p.exists():
@@ -378,22 +384,26 @@ def load_drill(path_or_name: "str | Path") -> Drill:
 
 def shipped_drills() -> list[str]:
     """Ids (file stems) of the drills shipped in ``targets/drills``."""
-    if not SHIPPED_DIR.is_dir():
+    folder = shipped_dir()
+    if not folder.is_dir():
         return []
-    return sorted(p.stem for p in SHIPPED_DIR.glob("*.yaml"))
+    return sorted(p.stem for p in folder.glob("*.yaml"))
 
 
 def check_targets(drill: Drill, target_set) -> None:
     """Raise UserError naming file, block and item for a target id not in ``target_set``.
 
-    ``target_set`` is a :class:`livevowel.targets.TargetSet` (anything with
-    ``.targets`` of objects with ``.id``, and ``.id``).
+    ``target_set`` is a :class:`livevowel.targets.TargetSet`; an item's
+    target may be the id, the IPA symbol or the lexical-set keyword
+    (``TargetSet.find``).
     """
     known = [t.id for t in target_set.targets]
     src = str(drill.path) if drill.path else drill.id
+    find = getattr(target_set, "find", None)
     for bi, b in enumerate(drill.blocks):
         for ii, it in enumerate(b.items):
-            if it.target not in known:
+            found = find(it.target) if find is not None else (it.target if it.target in known else None)
+            if found is None:
                 raise UserError(f"{src}: block {bi + 1} ({b.id}) item {ii + 1}: target {it.target!r} is not in "
                                 f"set {getattr(target_set, 'id', '?')!r} (known: {', '.join(known)})")
 
@@ -685,12 +695,19 @@ class DrillRun:
         if self.state != "done":
             self._end_block(now_s, skipped=True)
 
-    def override(self, block_index: int, trial: int, *, hit: bool | None = None, counted: bool | None = None) -> None:
-        """Coach: change the judgement that counts for a trial (``hit=None`` restores the automatic one)."""
+    def override(self, block_index: int, trial: int, *, hit: "bool | None | object" = ...,
+                 counted: bool | None = None) -> None:
+        """Coach: change the judgement that counts for a trial.
+
+        ``hit`` True/False overrides, ``None`` restores the automatic result,
+        left out keeps it; ``counted=False`` takes the trial out of the counts.
+        Rules already applied (adaptive changes) are not undone.
+        """
         st = self.block_states[block_index]
         for r in st.results:
             if r.trial == trial:
-                r.hit = r.auto_hit if hit is None else bool(hit)
+                if hit is not ...:
+                    r.hit = r.auto_hit if hit is None else bool(hit)
                 if counted is not None:
                     r.counted = bool(counted)
                 return

@@ -198,7 +198,7 @@ class DrillSession:
         self.run.skip_block(self.now_s)
         self._write_events()
 
-    def override(self, number: int, *, hit: bool | None, note: str | None = None,
+    def override(self, number: int, *, hit: "bool | None | object" = ..., note: str | None = None,
                  counted: bool | None = None) -> None:
         """A coach's judgement of attempt ``number``, stored beside the automatic one."""
         self._flush_pending(final=True)
@@ -207,7 +207,7 @@ class DrillSession:
             from livevowel.errors import UserError
 
             raise UserError(f"no attempt {number} in this session")
-        if oc.trial is not None and oc.prompt is not None:
+        if oc.trial is not None and oc.prompt is not None and (hit is not ... or counted is not None):
             self.run.override(oc.prompt.block_index, oc.trial.trial, hit=hit, counted=counted)
         self.recorder.override(number, hit=hit, note=note, counted=counted)
 

@@ -392,19 +392,27 @@ class Store:
             f"INSERT INTO attempts ({', '.join(cols)}) VALUES ({', '.join('?' * len(cols))})", vals)
         return int(cur.lastrowid)
 
-    def set_override(self, session_id: int, number: int, *, hit: bool | None, note: str | None = None,
-                     counted: bool | None = None) -> None:
+    def set_override(self, session_id: int, number: int, *, hit: "bool | None | object" = ...,
+                     note: str | None = None, counted: bool | None = None) -> None:
         """Store a coach's judgement beside the automatic one.
 
-        ``hit=None`` clears the override (the automatic result counts again);
-        ``note`` replaces the note; ``counted=False`` excludes the attempt
-        from the counts.
+        ``hit`` True/False sets the override, ``None`` clears it (the automatic
+        result counts again), left out keeps it; ``note`` replaces the note
+        when given; ``counted=False`` excludes the attempt from the counts
+        (``True`` takes it back in).
         """
-        cur = self.conn.execute(
-            "UPDATE attempts SET override_hit = ?, override_note = COALESCE(?, override_note), override_utc = ?, "
-            "counted = COALESCE(?, counted) WHERE session_id = ? AND number = ?",
-            (None if hit is None else int(bool(hit)), note, utc_now(),
-             None if counted is None else int(bool(counted)), session_id, number))
+        sets, vals = ["override_utc = ?"], [utc_now()]
+        if hit is not ...:
+            sets.append("override_hit = ?")
+            vals.append(None if hit is None else int(bool(hit)))
+        if note is not None:
+            sets.append("override_note = ?")
+            vals.append(note)
+        if counted is not None:
+            sets.append("counted = ?")
+            vals.append(int(bool(counted)))
+        cur = self.conn.execute(f"UPDATE attempts SET {', '.join(sets)} WHERE session_id = ? AND number = ?",
+                                (*vals, session_id, number))
         if cur.rowcount != 1:
             raise UserError(f"session {session_id} has no attempt {number}")
 
@@ -693,7 +701,7 @@ class SessionRecorder:
         self._do("add_attempt", self.session_id, row)
         return row
 
-    def override(self, number: int, *, hit: bool | None, note: str | None = None,
+    def override(self, number: int, *, hit: "bool | None | object" = ..., note: str | None = None,
                  counted: bool | None = None) -> None:
         """A coach's judgement for attempt ``number`` (see :meth:`Store.set_override`)."""
         self._do("set_override", self.session_id, number, hit=hit, note=note, counted=counted)
