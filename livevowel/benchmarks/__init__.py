@@ -25,6 +25,7 @@ SUITES: dict[str, str] = {
     "synth": "synth",
     "targets": "targets",
     "live": "live",
+    "session": "session",
 }
 
 
