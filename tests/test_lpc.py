@@ -475,3 +475,15 @@ def test_formant_candidates_recover_any_pole_set(poles):
     np.testing.assert_allclose(f[0, :len(freqs)], np.asarray(freqs)[order], rtol=1e-6, atol=1e-3)
     np.testing.assert_allclose(b[0, :len(freqs)], np.asarray(bws)[order], rtol=1e-5, atol=1e-2)
     assert np.all(np.isnan(f[0, len(freqs):]))
+
+
+@settings(max_examples=25, deadline=None)
+@given(frames=arrays(np.float64, st.tuples(st.integers(1, 3), st.integers(60, 140)),
+                     elements=st.floats(-1.0, 1.0, allow_nan=False, width=32)),
+       gain=st.floats(1e-3, 1e3), method=st.sampled_from(["autocorrelation", "burg", "weighted"]))
+def test_lpc_is_scale_invariant(frames, gain, method):
+    # the normal equations are homogeneous in the signal: A(z) of g*x equals A(z) of x
+    frames = frames + 0.01 * np.sin(np.arange(frames.shape[1]))[None, :]   # keep every frame non-silent
+    a1 = lpc(frames, order=6, method=method)
+    a2 = lpc(gain * frames, order=6, method=method)
+    np.testing.assert_allclose(a2, a1, rtol=1e-6, atol=1e-6 * (1 + np.max(np.abs(a1))))
