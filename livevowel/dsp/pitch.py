@@ -51,6 +51,8 @@ def frame_level_db(frames) -> np.ndarray:
     Parameters
     ----------
     frames : array (n_frames, N) or (N,)
+        Samples in full-scale units (float, +-1). Integer arrays are taken
+        at face value, not scaled: convert int16 etc. to +-1 first.
 
     Returns
     -------
