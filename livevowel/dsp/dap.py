@@ -36,6 +36,13 @@ from livevowel.dsp.lpc import levinson_durbin
 
 __all__ = ["harmonic_powers", "dap"]
 
+#: Harmonics less than this many dB above the local noise floor count as lost in noise.
+NOISE_DROP_DB = 8.0
+#: Level assumed for such harmonics, dB re the strongest harmonic of the frame.
+FLOOR_DB = -50.0
+#: Their weight in the fit (and the least weight any harmonic gets).
+LOST_WEIGHT = 0.3
+
 
 def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, max_hz: float,
                     nfft: int = 2048, search: float = 0.25, noise_floor: bool = True) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -58,7 +65,10 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
         ``k * F0``; its frequency is refined by a parabola through the log power.
     noise_floor : bool
         Subtract the mean power of the valleys on either side of each
-        harmonic (noise plus leakage), keeping at least 0.1 % of the peak.
+        harmonic (noise plus leakage; keeping at least 10 % of the peak) and
+        weight each harmonic by its local SNR (full weight from 12 dB).
+        Harmonics less than ``NOISE_DROP_DB`` above the floor are taken to be
+        ``FLOOR_DB`` below the strongest harmonic, with weight ``LOST_WEIGHT``.
 
     Returns
     -------
@@ -100,11 +110,12 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
         shift = np.where(den < 0, 0.5 * (lm - lp) / np.where(den < 0, den, -1.0), 0.0)
     shift = np.clip(shift, -0.5, 0.5)
     freq = (peak_bin + shift) * df
+    snr_w = np.ones_like(p0)
     if noise_floor:
-        # mean power in the middle of the valley above each harmonic: leakage
-        # plus noise; subtracting it keeps noise-filled harmonics from being
-        # fitted as resonances (Gaussian taper: leakage there is ~-48 dB at
-        # F0 = 300 Hz, so clean harmonics lose almost nothing)
+        # mean power in the middle of the valleys either side of each harmonic
+        # (noise plus leakage; with the Gaussian taper leakage there is about
+        # -48 dB at F0 = 300 Hz). Harmonics close to that floor are down-weighted
+        # rather than trusted: weight = local SNR / 12 dB, between 0.05 and 1.
         vc = ((k[None, :] + 0.5) * np.where(ok, f0, 0.0)[:, None]) / df
         vhalf = np.maximum(1.0, 0.15 * np.where(ok, f0, 0.0) / df)[:, None]
         vb = np.rint(vc)[:, :, None] + offs[None, None, :]
@@ -114,8 +125,18 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
         valley = vv.sum(axis=2) / np.maximum(vin.sum(axis=2), 1)
         below = np.concatenate([valley[:, :1], valley[:, :-1]], axis=1)   # valley under the harmonic
         noise = 0.5 * (valley + below)
-        p0 = np.maximum(p0 - noise, 1e-3 * p0)
-    weight = ((k[None, :] <= counts[:, None]) & (p0 > 0)).astype(np.float64)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            snr_db = 10.0 * np.log10(p0 / np.maximum(noise, 1e-300))
+        snr_db = np.nan_to_num(snr_db, nan=0.0)
+        clean = np.maximum(p0 - noise, 0.1 * p0)
+        # noise-dominated harmonics: the voice there is somewhere below the
+        # noise; assume it is deep (FLOOR_DB below the strongest harmonic) and
+        # give it little weight, rather than fitting the noise as a resonance
+        top = np.max(np.where(k[None, :] <= counts[:, None], clean, 0.0), axis=1, keepdims=True)
+        lost = snr_db < NOISE_DROP_DB
+        p0 = np.where(lost, np.maximum(p0 - noise, top * 10.0 ** (FLOOR_DB / 10.0)), clean)
+        snr_w = np.where(lost, LOST_WEIGHT, np.clip(snr_db / 12.0, LOST_WEIGHT, 1.0))
+    weight = ((k[None, :] <= counts[:, None]) & (p0 > 0)).astype(np.float64) * snr_w
     power = np.where(weight > 0, p0, 1.0)
     freq = np.where(weight > 0, freq, 0.0)
     return freq, power, weight
@@ -157,7 +178,7 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
     r = np.einsum("nkm,nm->nk", cosm, pw) / np.maximum(cnt, 1)[:, None]
     r[:, 0] *= 1.0 + 1e-9
     a, _, _ = levinson_durbin(r)
-    ok = cnt >= (p + 1) / 2.0
+    ok = (w > 0).sum(axis=1) >= (p + 1) / 2.0
     if not np.any(ok):
         return a, ok
     idx = np.arange(p + 1)
@@ -166,7 +187,7 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
     for _ in range(int(iterations)):
         a_w = np.einsum("nk,nkm->nm", a, emj)                        # A(e^{jw_m})
         with np.errstate(divide="ignore", invalid="ignore"):
-            hm = np.where(w > 0, 1.0 / a_w, 0.0)
+            hm = np.where(w > 0, w / a_w, 0.0)
         h = np.real(np.einsum("nm,nkm->nk", hm, emj)) / np.maximum(cnt, 1)[:, None]   # h(-k)
         try:
             c = np.linalg.solve(toe[ok], h[ok][:, :, None])[:, :, 0]

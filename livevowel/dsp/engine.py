@@ -203,7 +203,7 @@ class AnalysisSettings:
     taper: str = "gaussian"
     method: str = "dap"
     dap_above_hz: float = 160.0
-    dap_iterations: int = 12
+    dap_iterations: int = 30
     f0_min_hz: float = 60.0
     f0_max_hz: float = 700.0
     yin_threshold: float = 0.1

@@ -1,0 +1,142 @@
+"""Formant accuracy on synthetic vowels with known formants.
+
+Vowels: Peterson & Barney (1952) group means for men, women and children
+(F1, F2, F3 in Hz; from memory), rendered by the project's Klatt (1980)
+cascade synthesiser (livevowel.dsp.synth) with 0.5 % jitter and 0.2 dB
+shimmer, at several F0 values. The synthesiser's ground truth is exact, so
+the goals are asserted directly:
+
+* median absolute F1 and F2 error (pooled over the voiced frames of the ten
+  vowels) <= 3 % for F0 up to 250 Hz and <= 5 % for F0 300-350 Hz;
+* frames more than 20 % off (or not measured) <= 2 % of voiced frames;
+* with white noise at 20 dB SNR the median F1 error is at most 1.5 x the
+  clean one and the F2 error at most 1.5 x the clean goal (F2's clean error is
+  well under 1 %, so a ratio on it says little); children in noise are a
+  known limit (xfail, strict);
+* the default method beats plain autocorrelation LPC on the same frames at high F0.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+import numpy as np
+import pytest
+
+from livevowel.dsp.engine import AnalysisSettings, analyze
+from livevowel.dsp.synth import Schedule, Segment, add_noise, render, synthesize_vowel
+
+# Peterson & Barney (1952) means, Hz (from memory): F1, F2, F3
+PB = {
+    "men": {"i": (270, 2290, 3010), "ɪ": (390, 1990, 2550), "ɛ": (530, 1840, 2480), "æ": (660, 1720, 2410),
+            "ɑ": (730, 1090, 2440), "ɔ": (570, 840, 2410), "ʊ": (440, 1020, 2240), "u": (300, 870, 2240),
+            "ʌ": (640, 1190, 2390), "ɝ": (490, 1350, 1690)},
+    "women": {"i": (310, 2790, 3310), "ɪ": (430, 2480, 3070), "ɛ": (610, 2330, 2990), "æ": (860, 2050, 2850),
+              "ɑ": (850, 1220, 2810), "ɔ": (590, 920, 2710), "ʊ": (470, 1160, 2680), "u": (370, 950, 2670),
+              "ʌ": (760, 1400, 2780), "ɝ": (500, 1640, 1960)},
+    "children": {"i": (370, 3200, 3730), "ɪ": (530, 2730, 3600), "ɛ": (690, 2610, 3570),
+                 "æ": (1010, 2320, 3320), "ɑ": (1030, 1370, 3170), "ɔ": (680, 1060, 3180),
+                 "ʊ": (560, 1410, 3310), "u": (430, 1170, 3260), "ʌ": (850, 1590, 3360),
+                 "ɝ": (560, 1820, 2160)},
+}
+VOICE = {"men": ("adult_male", "man"), "women": ("adult_female", "woman"), "children": ("child", "child")}
+RATE = 16000
+
+
+@lru_cache(maxsize=None)
+def errors(group: str, f0: float, snr_db: float | None = None, method: str = "dap",
+           causal: bool = False) -> tuple[np.ndarray, np.ndarray]:
+    """Relative |error| of F1 and F2 over the voiced frames of all ten vowels (1.0 = not measured)."""
+    e1, e2 = [], []
+    s = AnalysisSettings(voice=VOICE[group][0], method=method)
+    for k, (vowel, fm) in enumerate(PB[group].items()):
+        x = synthesize_vowel(formants_hz=fm, f0_hz=f0, duration_s=0.4, rate_hz=RATE, voice=VOICE[group][1],
+                             jitter_pct=0.5, shimmer_db=0.2, seed=k)
+        if snr_db is not None:
+            x = add_noise(x, snr_db=snr_db, seed=k)
+        fr = analyze(x, RATE, settings=s, causal=causal).frames
+        v = fr.voiced
+        assert v.mean() > 0.9, f"{group} {vowel} F0 {f0}: only {v.mean():.0%} of frames voiced"
+        for est, true, out in ((fr.f1_hz[v], fm[0], e1), (fr.f2_hz[v], fm[1], e2)):
+            err = np.abs(est / true - 1.0)
+            out.append(np.where(np.isfinite(err), err, 1.0))
+    return np.concatenate(e1), np.concatenate(e2)
+
+
+def band(group: str, f0s, **kw) -> tuple[np.ndarray, np.ndarray]:
+    parts = [errors(group, float(f0), **kw) for f0 in f0s]
+    return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts])
+
+
+LOW = [("men", (100, 130, 160)), ("women", (180, 220, 250)), ("children", (250,))]
+HIGH = [("women", (300,)), ("children", (300, 350))]
+
+
+@pytest.mark.parametrize("group,f0s", LOW)
+def test_clean_error_up_to_250_hz(group, f0s):
+    e1, e2 = band(group, f0s)
+    assert np.median(e1) <= 0.03 and np.median(e2) <= 0.03, (np.median(e1), np.median(e2))
+    assert np.mean((e1 > 0.2) | (e2 > 0.2)) <= 0.02
+
+
+@pytest.mark.parametrize("group,f0s", HIGH)
+def test_clean_error_300_to_350_hz(group, f0s):
+    e1, e2 = band(group, f0s)
+    assert np.median(e1) <= 0.05 and np.median(e2) <= 0.05, (np.median(e1), np.median(e2))
+    assert np.mean((e1 > 0.2) | (e2 > 0.2)) <= 0.02
+
+
+@pytest.mark.parametrize("group,f0s", [("men", (100, 130, 160)), ("women", (180, 220, 250))])
+def test_20_db_noise_costs_at_most_half_again(group, f0s):
+    c1, c2 = band(group, f0s)
+    n1, n2 = band(group, f0s, snr_db=20.0)
+    # F1 (the hard one): at most 1.5 x the measured clean error. F2's clean
+    # error is a fraction of a percent, so it is held to 1.5 x the clean goal.
+    assert np.median(n1) <= 1.5 * np.median(c1), (np.median(n1), np.median(c1))
+    assert np.median(n2) <= 1.5 * 0.03, (np.median(n2), np.median(c2))
+    assert np.mean((n1 > 0.2) | (n2 > 0.2)) <= 0.02
+
+
+@pytest.mark.xfail(strict=True, reason="known limit: children's back vowels (/u/, /ɔ/: F1 and F2 close, "
+                                       "steep spectral tilt) in 20 dB white noise lose F2")
+def test_20_db_noise_children():
+    c1, c2 = band("children", (250, 300, 350))
+    n1, n2 = band("children", (250, 300, 350), snr_db=20.0)
+    assert np.median(n1) <= 1.5 * np.median(c1) and np.median(n2) <= 1.5 * np.median(c2)
+    assert np.mean((n1 > 0.2) | (n2 > 0.2)) <= 0.02
+
+
+@pytest.mark.parametrize("group,f0s", [("women", (220, 250, 300)), ("children", (250, 300, 350))])
+def test_harmonic_fit_beats_plain_lpc_at_high_f0(group, f0s):
+    d1, d2 = band(group, f0s)
+    a1, a2 = band(group, f0s, method="autocorrelation")
+    # measured gain is reported by `livevowel bench --only engine-accuracy`
+    assert np.median(d1) < 0.8 * np.median(a1)
+    assert np.mean((d1 > 0.2) | (d2 > 0.2)) <= np.mean((a1 > 0.2) | (a2 > 0.2))
+
+
+def test_causal_path_is_as_accurate_as_offline():
+    o1, o2 = band("women", (220,))
+    c1, c2 = band("women", (220,), causal=True)
+    assert np.median(c1) <= 0.03 and np.median(c2) <= 0.03
+    assert abs(np.median(c1) - np.median(o1)) < 0.01
+
+
+@pytest.mark.parametrize("causal", [False, True])
+def test_glide_is_followed(causal):
+    # /ɑ/ -> /i/ (men's means, Peterson & Barney 1952, from memory) over 200 ms
+    sch = Schedule((
+        Segment(duration_s=0.2, f0_start_hz=120.0, f0_end_hz=130.0, formants_hz=PB["men"]["ɑ"], transition_s=0.2,
+                transition="linear"),
+        Segment(duration_s=0.2, f0_start_hz=130.0, f0_end_hz=110.0, formants_hz=PB["men"]["i"]),
+    ), voice="man", jitter_pct=0.5)
+    y, truth = render(sch, rate_hz=RATE, seed=4, peak_dbfs=-6.0)
+    fr = analyze(y, RATE, settings=AnalysisSettings(voice="adult_male"), causal=causal).frames
+    t = truth.at(fr.time_s)
+    v = fr.voiced & t["voiced"]
+    for name in ("f1_hz", "f2_hz"):
+        err = np.abs(getattr(fr, name)[v] / t[name][v] - 1)
+        assert np.nanmedian(err) < 0.05
+        assert np.mean(~(err < 0.2)) <= 0.05
+    # the F2 rise is monotone enough: the end is far from the start
+    assert np.nanmedian(fr.f2_hz[fr.time_s > 0.3]) > 1.8 * np.nanmedian(fr.f2_hz[fr.time_s < 0.05])
