@@ -419,7 +419,7 @@ def weighted_lpc(frames, *, order: int, weight_window: int | None = None, rate_h
     out_a[:, 0] = 1.0
     out_err = np.zeros(n_frames)
     # Chunk over frames to bound the (chunk, p + 1, N + p) work array.
-    chunk = max(1, int(4_000_000 // ((order + 1) * length)))
+    chunk = max(1, int(500_000 // ((order + 1) * length)))
     if weights is not None:
         wts = np.asarray(weights, dtype=np.float64)
         if wts.ndim == 1:
