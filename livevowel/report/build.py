@@ -156,8 +156,8 @@ def _plane_caption(sd_list: Sequence[SessionData]) -> str:
     return ("Each attempt at the median F1 and F2 of its steady part: hit = green " + MARKERS["hit"] +
             ", miss = orange-red " + MARKERS["miss"] + ", not judged (flagged or no prompt) = grey " +
             MARKERS["unjudged"] + ". Regions of the prompted targets are drawn solid at the hit size of their "
-            "trials, the other targets of the set dashed. F2 grows to the left and F1 downwards, as on a "
-            "vowel chart." + (" " + " ".join(notes) if notes else ""))
+            "trials, the other targets of the set dashed; a dotted line joins each miss to the target it aimed at. "
+            "F2 grows to the left and F1 downwards, as on a vowel chart." + (" " + " ".join(notes) if notes else ""))
 
 
 def _header(title: str, sub: str, pairs) -> str:

@@ -152,13 +152,19 @@ def plane_figure(rows: Sequence[Mapping], target_set=None, *, title: str = "",
         key = "unjudged" if res is None else ("hit" if res else "miss")
         groups[key][0].append(float(r["f2_hz"]))
         groups[key][1].append(float(r["f1_hz"]))
+        if key == "miss" and target_set is not None and r.get("target_id"):
+            t = target_set.find(str(r["target_id"]))
+            if t is not None:   # a faint line from the miss to the target it aimed at
+                ax.plot([float(r["f2_hz"]), t.f2_hz], [float(r["f1_hz"]), t.f1_hz], color=COLOURS["miss"],
+                        lw=0.8, alpha=0.45, ls=(0, (1, 2)), zorder=3.5)
     n = {k: len(v[0]) for k, v in groups.items()}
     ax.scatter(*groups["unjudged"], s=34, marker="D", facecolors="none", edgecolors=COLOURS["unjudged"],
                linewidths=1.1, zorder=4, label=f"not judged ({n['unjudged']})")
-    ax.scatter(*groups["miss"], s=58, marker="X", color=COLOURS["miss"], edgecolors="white", linewidths=0.6,
-               zorder=5, label=f"miss ({n['miss']})")
-    ax.scatter(*groups["hit"], s=46, marker="o", color=COLOURS["hit"], edgecolors="white", linewidths=0.7,
-               zorder=6, label=f"hit ({n['hit']})")
+    ax.scatter(*groups["hit"], s=72, marker="o", color=COLOURS["hit"], edgecolors="white", linewidths=0.7,
+               zorder=5, label=f"hit ({n['hit']})")
+    # misses on top, as thin crosses: a hit at the same place still shows through
+    ax.scatter(*groups["miss"], s=64, marker="x", color=COLOURS["miss"], linewidths=2.0, zorder=6,
+               label=f"miss ({n['miss']})")
     for k in groups:
         xs += groups[k][0]
         ys += groups[k][1]
