@@ -194,34 +194,27 @@ def viterbi_segments(cost: np.ndarray, sf: np.ndarray, segment_start: np.ndarray
     best = np.full(n, -1, dtype=np.int64)
     if n == 0:
         return best
-    back = np.zeros((n, s), dtype=np.int64)
-    acc = cost[0].copy()
-    starts = list(np.flatnonzero(segment_start)) + [n]
-    if starts[0] != 0:
-        starts = [0] + starts
-
-    def backtrack(end: int, begin: int, acc_end: np.ndarray) -> None:
-        if not np.any(np.isfinite(acc_end)):
-            return
-        st = int(np.argmin(acc_end))
-        for t in range(end, begin - 1, -1):
-            best[t] = st
-            if t > begin:
-                st = int(back[t, st])
-
-    for a, b in zip(starts[:-1], starts[1:]):
-        acc = cost[a].copy()
-        for t in range(a + 1, b):
-            prev_ok = np.isfinite(acc)
-            if not np.any(prev_ok):       # nothing viable before: restart here
-                acc = cost[t].copy()
-                back[t] = 0
-                continue
-            tr = transition_costs(sf[t - 1], sf[t], costs)
-            tot = np.where(prev_ok[:, None], acc[:, None] + tr, np.inf)
-            back[t] = np.argmin(tot, axis=0)
-            acc = tot[back[t], np.arange(s)] + cost[t]
-        backtrack(b - 1, a, acc)
+    feasible = np.isfinite(cost).any(axis=1)
+    start = np.asarray(segment_start, dtype=bool).copy()
+    start[0] = True
+    # segments; inside one, frames with no possible state are stepped over
+    # (the path links the feasible frames either side of them)
+    bounds = list(np.flatnonzero(start)) + [n]
+    for a, b in zip(bounds[:-1], bounds[1:]):
+        idx = [t for t in range(a, b) if feasible[t]]
+        if not idx:
+            continue
+        acc = cost[idx[0]].copy()
+        back = np.zeros((len(idx), s), dtype=np.int64)
+        for j in range(1, len(idx)):
+            tr = transition_costs(sf[idx[j - 1]], sf[idx[j]], costs)
+            tot = acc[:, None] + tr              # impossible states stay inf
+            back[j] = np.argmin(tot, axis=0)
+            acc = tot[back[j], np.arange(s)] + cost[idx[j]]
+        st = int(np.argmin(acc))
+        for j in range(len(idx) - 1, -1, -1):
+            best[idx[j]] = st
+            st = int(back[j, st])
     return best
 
 

@@ -1,0 +1,158 @@
+"""Candidate-to-formant assignment, Viterbi and causal tracking, display smoothing.
+
+Candidate tables here are processes with known answers (a formant track
+plus distractors placed by construction); the step-response check uses the
+Klatt synthesiser with Peterson & Barney (1952) men's /i/ and /ɑ/ means
+(from memory).
+"""
+
+from __future__ import annotations
+
+from math import comb
+
+import numpy as np
+import pytest
+
+from livevowel.dsp.engine import AnalysisSettings, analyze
+from livevowel.dsp.synth import Schedule, Segment, render
+from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
+                                    state_table, transition_costs, viterbi_segments)
+
+REF = np.array([444.0, 1387.0, 2255.0])
+COSTS = TrackerCosts()
+
+
+def test_state_table_lists_every_ordered_choice():
+    st = state_table(6)
+    assert len(st) == comb(6, 3) + comb(6, 2)
+    tri = st[st[:, 2] >= 0]
+    assert np.all((tri[:, 0] < tri[:, 1]) & (tri[:, 1] < tri[:, 2]))
+    assert not st.flags.writeable
+
+
+def test_local_costs_pick_the_obvious_reading():
+    freq = np.array([[500.0, 1500.0, 2500.0, 3500.0, np.nan, np.nan]])
+    bw = np.array([[60.0, 90.0, 120.0, 200.0, np.nan, np.nan]])
+    st = state_table(6)
+    cost, sf, _ = local_costs(freq, bw, states=st, ref_hz=REF, f0_hz=np.array([np.nan]), costs=COSTS)
+    best = sf[0, np.argmin(cost[0])]
+    np.testing.assert_array_equal(best, [500.0, 1500.0, 2500.0])
+    # states that need a missing candidate are impossible
+    assert np.all(np.isinf(cost[0][np.any(st >= 4, axis=1)]))
+
+
+def test_wide_candidate_is_skipped_and_narrow_one_is_not():
+    # a 900 Hz-wide spurious pole between F1 and F2 is left out ...
+    freq = np.array([[500.0, 900.0, 1500.0, 2500.0, np.nan, np.nan]])
+    bw = np.array([[60.0, 900.0, 90.0, 120.0, np.nan, np.nan]])
+    st = state_table(6)
+    cost, sf, _ = local_costs(freq, bw, states=st, ref_hz=REF, f0_hz=np.array([np.nan]), costs=COSTS)
+    np.testing.assert_array_equal(sf[0, np.argmin(cost[0])], [500.0, 1500.0, 2500.0])
+    # ... but a strong F2 is not skipped in favour of F3 as "F2"
+    freq = np.array([[430.0, 1170.0, 3260.0, 4600.0, np.nan, np.nan]])
+    bw = np.array([[150.0, 250.0, 70.0, 200.0, np.nan, np.nan]])
+    ref_child = np.array([617.0, 1842.0, 2838.0])
+    cost, sf, _ = local_costs(freq, bw, states=st, ref_hz=ref_child, f0_hz=np.array([350.0]), costs=COSTS)
+    np.testing.assert_array_equal(sf[0, np.argmin(cost[0]), :2], [430.0, 1170.0])
+
+
+def test_transition_cost_is_symmetric_log_distance():
+    a = np.array([[500.0, 1500.0, 2500.0]])
+    b = np.array([[550.0, 1500.0, np.nan]])
+    c = transition_costs(a, b, COSTS)[0, 0]
+    assert c == pytest.approx(COSTS.w_trans * np.log(1.1))
+    # a formant missing on either side adds nothing
+    assert transition_costs(a, np.array([[500.0, 1500.0, np.nan]]), COSTS)[0, 0] == 0.0
+
+
+def _track_with_distractor(n=40, seed=0):
+    """F1-F3 on a slow glide, plus a distractor that hops between 700 and 1000 Hz."""
+    rng = np.random.default_rng(seed)
+    t = np.arange(n)
+    true = np.column_stack([500 + 3 * t, 1500 - 5 * t, 2500 + 0 * t]).astype(float)
+    dis = np.where(t % 2 == 0, 700.0, 1000.0) + rng.normal(0, 5, n)
+    freq = np.sort(np.column_stack([true, dis, np.full(n, np.nan), np.full(n, np.nan)]), axis=1)
+    bw = np.where(np.isin(freq, dis), 120.0, 80.0)
+    bw[np.isnan(freq)] = np.nan
+    return true, freq, bw
+
+
+def test_viterbi_follows_the_continuous_track():
+    true, freq, bw = _track_with_distractor()
+    st = state_table(freq.shape[1])
+    cost, sf, _ = local_costs(freq, bw, states=st, ref_hz=REF, f0_hz=np.full(len(freq), np.nan), costs=COSTS)
+    best = viterbi_segments(cost, sf, np.r_[True, np.zeros(len(freq) - 1, bool)], COSTS)
+    got = sf[np.arange(len(freq)), best]
+    np.testing.assert_allclose(got, true)
+
+
+def test_viterbi_restarts_at_segment_starts_and_survives_impossible_frames():
+    true, freq, bw = _track_with_distractor(10)
+    freq[4] = np.nan
+    bw[4] = np.nan
+    st = state_table(freq.shape[1])
+    cost, sf, _ = local_costs(freq, bw, states=st, ref_hz=REF, f0_hz=np.full(10, np.nan), costs=COSTS)
+    start = np.zeros(10, bool)
+    start[[0, 6]] = True
+    best = viterbi_segments(cost, sf, start, COSTS)
+    assert best[4] == -1
+    ok = best >= 0
+    np.testing.assert_allclose(sf[np.flatnonzero(ok), best[ok]], true[ok])
+
+
+def test_causal_tracker_with_lookahead_follows_the_track():
+    true, freq, bw = _track_with_distractor()
+    st = state_table(freq.shape[1])
+    cost, sf, _ = local_costs(freq, bw, states=st, ref_hz=REF, f0_hz=np.full(len(freq), np.nan), costs=COSTS)
+    tr = CausalTracker(COSTS)
+    got = []
+    for i in range(len(freq)):
+        nxt = (cost[i + 1], sf[i + 1]) if i + 1 < len(freq) else (None, None)
+        s, p = tr.step(cost[i], sf[i], *nxt)
+        got.append(sf[i, s])
+        if i + 1 < len(freq):
+            assert p >= 0
+    np.testing.assert_allclose(np.array(got), true)
+
+
+def test_median3_ignores_missing_neighbours():
+    a, b, c = np.array([1.0, np.nan, 5.0]), np.array([2.0, 2.0, np.nan]), np.array([9.0, 4.0, 1.0])
+    np.testing.assert_allclose(median3(a, b, c), [2.0, 3.0, np.nan])
+
+
+def test_display_smoother_passes_jumps_and_damps_jitter():
+    sm = DisplaySmoother(alpha_min=0.4, jump=0.15)
+    out = [sm.step(np.array([500.0, 1500.0, 2500.0]))]
+    rng = np.random.default_rng(0)
+    jit = 500.0 * (1 + 0.02 * rng.standard_normal(200))
+    ys = np.array([sm.step(np.array([j, 1500.0, 2500.0]))[0] for j in jit])
+    assert np.std(ys) < 0.8 * np.std(jit)           # 2 % jitter is reduced
+    y = sm.step(np.array([750.0, 1500.0, 2500.0]))  # a 50 % step passes at once
+    assert y[0] == pytest.approx(750.0)
+    sm.reset()
+    sm.step(np.array([300.0, np.nan, 2000.0]))
+    # a formant that reappears takes its new value at once
+    assert sm.step(np.array([300.0, 1000.0, 2000.0]))[1] == 1000.0
+
+
+def test_step_response_lag_of_the_causal_engine():
+    """A sudden /i/ -> /ɑ/ change: the causal F1 reaches the new vowel within one hop of the offline track."""
+    men_i, men_a = (270.0, 2290.0, 3010.0), (730.0, 1090.0, 2440.0)
+    sch = Schedule((Segment(duration_s=0.25, f0_start_hz=120.0, formants_hz=men_i),
+                    Segment(duration_s=0.25, f0_start_hz=120.0, formants_hz=men_a)), voice="man")
+    y, _ = render(sch, rate_hz=16000, seed=1, peak_dbfs=-6.0)
+    s = AnalysisSettings(voice="adult_male")
+    c = analyze(y, 16000, settings=s, causal=True).frames
+    o = analyze(y, 16000, settings=s).frames
+    half = 0.5 * (270.0 + 730.0)
+
+    def crossing(fr):
+        after = np.flatnonzero((fr.time_s > 0.2) & (fr.f1_hz > half))
+        return fr.time_s[after[0]]
+
+    lag = crossing(c) - crossing(o)
+    assert lag <= 0.010 + 1e-9
+    # and both settle on the new vowel within 3 hops of the change plus half a window
+    assert crossing(c) < 0.25 + 0.0125 + 0.03
+    late = c.time_s > 0.32
+    assert np.all(np.abs(c.f1_hz[late] / 730.0 - 1) < 0.05)
