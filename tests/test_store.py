@@ -226,3 +226,21 @@ def test_sigkill_loses_at_most_the_attempt_in_progress(tmp_path):
         assert (tmp_path / r["clip"]).exists()
         assert len(sf.read(tmp_path / r["clip"])[0]) == 800
     assert s.session(1)["ended_utc"] is None
+
+
+def test_damage_inside_the_file_is_found_and_left_alone(tmp_path):
+    s = st.Store.open(tmp_path)
+    sid = s.start_session()
+    for i in range(1, 200):
+        s.add_attempt(sid, row(i, track_json="x" * 2000))
+    s.conn.execute("PRAGMA wal_checkpoint(TRUNCATE)")
+    s.close()
+    path = tmp_path / st.DB_NAME
+    data = bytearray(path.read_bytes())
+    page = 4096
+    assert len(data) > 20 * page
+    data[10 * page:10 * page + 600] = b"\xff" * 600   # a page in the middle of the attempts table
+    path.write_bytes(bytes(data))
+    with pytest.raises(UserError, match="damaged"):
+        st.Store.open(tmp_path)
+    assert path.read_bytes() == bytes(data)

@@ -339,7 +339,9 @@ class Store:
         if version < SCHEMA_VERSION:
             migrate(c)
         else:
-            c.execute("PRAGMA quick_check").fetchone()
+            res = c.execute("PRAGMA quick_check").fetchone()[0]
+            if res != "ok":
+                raise sqlite3.DatabaseError(f"database disk image is malformed ({res})")
 
     def close(self) -> None:
         """Close the connection (committed data is already on disk)."""
