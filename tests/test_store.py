@@ -244,3 +244,17 @@ def test_damage_inside_the_file_is_found_and_left_alone(tmp_path):
     with pytest.raises(UserError, match="damaged"):
         st.Store.open(tmp_path)
     assert path.read_bytes() == bytes(data)
+
+
+def test_clip_that_cannot_be_written_turns_clips_off_and_keeps_the_rows(tmp_path):
+    warnings = []
+    rec = st.SessionRecorder(folder=tmp_path, warn=warnings.append)
+    sid = rec.start()
+    (tmp_path / "clips").write_text("in the way")      # the clips folder cannot be made
+    stored = rec.attempt(row(1), samples=np.zeros(800), rate_hz=16000)
+    rec.attempt(row(2), samples=np.zeros(800), rate_hz=16000)
+    assert "clip" not in stored and not rec.clips and len(warnings) == 1 and "clips are off" in warnings[0]
+    assert not rec.in_memory
+    s = st.Store.open(tmp_path)
+    assert [r["number"] for r in s.attempts(sid)] == [1, 2]
+    assert [e["kind"] for e in s.events(sid)] == ["warning"]

@@ -59,9 +59,10 @@ def add_drill_options(parser: argparse.ArgumentParser, *, file_positional: bool 
     if not practice:
         g.add_argument("--set", dest="target_set", metavar="SET",
                        help="target set to use instead of the one the drill names")
-    g.add_argument("--coach", action="store_true",
-                   help="coach-led (screen only): the coach moves on with the right arrow or N, "
-                        "repeats with the left arrow or P; default self-paced")
+    if practice:
+        g.add_argument("--coach", action="store_true",
+                       help="coach-led: the coach moves on with the right arrow or N and asks for the same "
+                            "item again with the left arrow or P (default: self-paced)")
     g.add_argument("--data", metavar="DIR", help="data folder of the session record "
                    "(default: $LIVEVOWEL_DATA or the user data folder)")
     g.add_argument("--no-clips", action="store_true", help="do not save audio clips of the attempts")
@@ -103,6 +104,8 @@ def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
 
     if not args.drill:
         raise UserError("name a drill file or shipped drill (see --list)")
+    if args.pause is not None and not (0 <= args.pause <= 30):
+        raise UserError(f"--pause {args.pause}: give 0 to 30 seconds")
     drill = load_drill(args.drill)
     settings = getattr(args, "_settings", None) or config.load(config_file=getattr(args, "config", None))
     set_ref = getattr(args, "target_set", None) or getattr(args, "targets", None)
