@@ -196,3 +196,26 @@ def test_yin_return_cmnd_matches_cmnd_of_difference_function():
     ref = cmnd(difference_function(x, max_lag=tau_max + 1, window=420 - tau_max - 1))
     np.testing.assert_array_equal(dp, ref)
     assert dp[0, int(round(11000.0 / f0[0]))] == pytest.approx(ap[0], abs=0.05)
+
+
+@pytest.mark.parametrize("f0", [80.0, 120.0, 200.0, 300.0, 450.0])
+def test_yin_on_klatt_vowel_with_strong_high_formants(f0):
+    # The project's Klatt (1980) synthesiser renders /i/ at Peterson & Barney (1952)
+    # women's means (310/2790/3310 Hz, from memory) with a known, exact F0. Strong F2/F3
+    # put shallow CMND dips one formant cycle before the period; the paper's rule
+    # (dip_search=0) stopped there here: measured 3.1 % high at 120 Hz, 6.5 % at 200 Hz.
+    from livevowel.dsp.synth import synthesize_vowel
+
+    rate = 16000.0
+    x = synthesize_vowel(formants_hz=(310.0, 2790.0, 3310.0), f0_hz=f0, duration_s=0.3, rate_hz=rate,
+                         voice="woman", seed=1)
+    n = yin_frame_length(rate_hz=rate, f0_min_hz=70.0)
+    fr = frames_of(x[800:-800], n, 160)
+    est, aper = yin(fr, rate_hz=rate, f0_min_hz=70.0, f0_max_hz=600.0)
+    np.testing.assert_allclose(est, f0, rtol=0.01)
+    assert np.all(aper < 0.05)
+
+
+def test_dip_search_validation():
+    with pytest.raises(ValueError, match="dip_search"):
+        yin(np.zeros((1, 800)), rate_hz=16000.0, f0_min_hz=60.0, f0_max_hz=500.0, dip_search=1.5)

@@ -189,12 +189,14 @@ def _lag_index(n: int) -> np.ndarray:
 
 
 def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 600.0,
-        threshold: float = 0.15, fallback: bool = False, return_cmnd: bool = False):
+        threshold: float = 0.15, fallback: bool = False, dip_search: float = 0.15,
+        return_cmnd: bool = False):
     """YIN fundamental-frequency estimate per frame (de Cheveigné & Kawahara 2002).
 
     Steps 2-5 of the paper: difference function, cumulative mean normalised
     difference (CMND), absolute threshold (the first lag in range whose CMND
-    falls below ``threshold``, then followed down to its local minimum), and
+    falls below ``threshold``; then the deepest value up to ``1 +
+    dip_search`` times that lag, followed down to its local minimum), and
     parabolic interpolation of the raw difference function around that lag.
 
     Frame length: ``N >= yin_frame_length(rate_hz=..., f0_min_hz=...)``, i.e.
@@ -215,6 +217,14 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     fallback : bool
         If no lag falls below ``threshold``, take the global CMND minimum in
         range (paper step 4) instead of returning NaN.
+    dip_search : float
+        After the first lag below ``threshold``, take the deepest CMND value
+        up to ``(1 + dip_search)`` times that lag (then its local minimum).
+        A strong high formant (F2/F3 of /i/) puts shallow dips one formant
+        cycle before the period, and the paper's rule (``dip_search=0``)
+        can stop there (an F0 several per cent high); 0.15 reaches past
+        them but stays far below the sub-harmonic at twice the lag. This
+        is a livevowel refinement of the paper's step 4.
     return_cmnd : bool
         Also return the CMND ``d'`` (n_frames, tau_max + 2) for lags
         0..tau_max+1 (e.g. for an octave check at twice the chosen lag)
@@ -233,6 +243,8 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     rate, tau_min, tau_max = _lags(rate_hz, f0_min_hz, f0_max_hz)
     if not (0.0 < float(threshold) < 1.0):
         raise ValueError(f"threshold must be between 0 and 1, got {threshold!r}")
+    if not (0.0 <= float(dip_search) < 1.0):
+        raise ValueError(f"dip_search must be in [0, 1), got {dip_search!r}")
     n_frames, n = x.shape
     need = 2 * tau_max + 1
     if n < need:
@@ -245,12 +257,20 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     sub = dp[:, tau_min: tau_max + 1]             # lags tau_min .. tau_max
     below = sub < threshold
     found = below.any(axis=1)
-    first = below.argmax(axis=1)
-    # follow the dip down to its local minimum: first lag >= first with d'(t+1) >= d'(t)
+    first = below.argmax(axis=1)                  # index into sub of the first lag below threshold
+    idx = _lag_index(sub.shape[1] + 1) - 1.0      # 0 .. L-1 as float
+    if dip_search > 0:
+        # deepest CMND value from the first dip up to (1 + dip_search) times its lag
+        last = np.floor((first + tau_min) * (1.0 + dip_search)) - tau_min
+        window = (idx[None, :] >= first[:, None]) & (idx[None, :] <= last[:, None])
+        start = np.where(window, sub, np.inf).argmin(axis=1)
+    else:
+        start = first
+    # follow the dip down to its local minimum: first lag >= start with d'(t+1) >= d'(t)
     rising = np.empty(sub.shape, dtype=bool)
     np.greater_equal(sub[:, 1:], sub[:, :-1], out=rising[:, :-1])
     rising[:, -1] = True
-    rising &= _lag_index(sub.shape[1] + 1)[None, :] > first[:, None]   # (index + 1) > first
+    rising &= idx[None, :] >= start[:, None]
     best = rising.argmax(axis=1) + tau_min
     gmin = sub.argmin(axis=1) + tau_min
     rows = np.arange(n_frames)
