@@ -157,8 +157,13 @@ def test_disk_full_mid_session_continues_in_memory(tmp_path):
     assert rec.in_memory
     assert warnings and "continues in memory" in warnings[0] and "full" in warnings[0]
     rec.attempt(row(4))
+    rec.override(1, hit=False, note="heard as KIT")
+    with pytest.raises(UserError, match="no attempt 9"):
+        rec.override(9, hit=True)
     summ = rec.finish()
-    assert summ.attempts == 4 and summ.trials == 4
+    assert summ.attempts == 4 and summ.trials == 4 and summ.hits == 3
+    r1 = rec.store.attempts(sid)[0]
+    assert (r1["auto_hit"], r1["override_hit"], r1["override_note"]) == (1, 0, "heard as KIT")
     # what was committed before the failure is still on disk
     disk = st.Store.open(tmp_path)
     assert [r["number"] for r in disk.attempts(sid)] == [1, 2]

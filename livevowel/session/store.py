@@ -646,14 +646,19 @@ class SessionRecorder:
             self._warn(self.warning)
 
     def _do(self, name: str, *args, **kw):
-        self._log.append((name, args, kw))
+        entry = (name, args, kw)
+        self._log.append(entry)
         try:
             return getattr(self.store, name)(*args, **kw)
         except (sqlite3.Error, OSError) as exc:
             if self.in_memory or not _is_write_failure(exc):
+                self._log.pop()
                 raise
-            self._fall_back(f"{self.store.path}: {exc}")
+            self._fall_back(f"{self.store.path}: {exc}")   # replays the log, this call included
             return None
+        except BaseException:
+            self._log.pop()
+            raise
 
     def _fall_back(self, reason: str) -> None:
         try:
