@@ -73,9 +73,15 @@ Times ``*_utc`` are ISO 8601 UTC text (``2026-01-31T14:05:09.123Z``);
 
 ``events`` (what happened besides attempts)
     ``id`` INTEGER PRIMARY KEY; ``session_id`` -> sessions.id; ``wall_utc``;
-    ``stream_s`` REAL; ``kind`` TEXT (``block_start``, ``block_end``,
-    ``adapt``, ``warning``, ``note``); ``block_index`` INTEGER;
-    ``detail_json`` TEXT.
+    ``stream_s`` REAL; ``kind`` TEXT; ``block_index`` INTEGER;
+    ``detail_json`` TEXT, by kind:
+    ``block_start`` {block_id, order, seed (shuffled blocks, else null),
+    hit_size_sd, hold_s, advance (the rule in words), length};
+    ``block_end`` {block_id, trials, hits, criterion_met, skipped,
+    hit_size_sd, hold_s (the task at the end)};
+    ``adapt`` {direction (harder, easier or same), lever (hit_size, hold,
+    item or null at the limits), from, to, accuracy (0..1)};
+    ``drill_end`` {}; ``warning`` {message}; ``note`` {text}.
 
 Version history: 1 -- speakers, sessions, attempts (no ``peak_level_db``,
 ``speaker_space``, ``override_utc``, ``counted``); 2 -- those columns and
