@@ -277,6 +277,10 @@ def run_practice_drill(args: argparse.Namespace) -> int:
     from livevowel.cli._screen_options import parse_size, settings_and_options
 
     settings, options = settings_and_options(args)
+    if not getattr(args, "headless", False):
+        from livevowel import CAUTION
+
+        print(CAUTION, file=sys.stderr)
     return run_drill_screen(args, settings=settings, options=options, size=parse_size(args.size))
 
 
