@@ -98,7 +98,8 @@ def local_shimmer_db(amps: np.ndarray) -> float:
 def closures_and_peaks(flow: np.ndarray, rate_hz: float) -> tuple[np.ndarray, np.ndarray]:
     """Glottal closure instants (s) and per-pulse peak flow of a recovered
     KLGLOTT88 flow: closure = where the open phase returns to zero, found by
-    linear extrapolation of the last two open-phase samples."""
+    linear extrapolation of two open-phase samples taken 2 and 3 samples
+    before the last non-zero one (clear of the smoothing at closure)."""
     thr = 1e-4 * np.max(flow)
     open_ = flow > thr
     ends = np.flatnonzero(open_[:-1] & ~open_[1:])          # last open sample
@@ -107,8 +108,8 @@ def closures_and_peaks(flow: np.ndarray, rate_hz: float) -> tuple[np.ndarray, np
     gci, peaks = [], []
     for e in ends:
         s = starts[starts <= e][-1]
-        u1, u2 = flow[e - 1], flow[e]
-        gci.append((e + u2 / (u1 - u2)) / rate_hz)
+        u1, u2 = flow[e - 3], flow[e - 2]
+        gci.append((e - 2 + u2 / (u1 - u2)) / rate_hz)
         peaks.append(flow[s:e + 1].max())
     return np.array(gci), np.array(peaks)
 
@@ -210,9 +211,10 @@ def test_spectrum_envelope_peaks_at_peterson_barney_formants(vowel):
 def test_output_spectrum_is_klglott88_source_times_klatt_cascade(formants, f0, rate, n_formants):
     # With an integer period (rate / F0 samples), the steady output is exactly
     # periodic: its harmonics must be the harmonics of the sampled, first-
-    # differenced KLGLOTT88 pulse (Klatt & Klatt 1990) times the response of
-    # the cascade of Klatt (1980) resonators (F4/F5 of the man's voice; F5 is
-    # left out at 10 kHz), up to one real constant gain.
+    # differenced KLGLOTT88 pulse (Klatt & Klatt 1990; closure kink smoothed
+    # by a two-point polyBLAMP, Esqueda, Valimaki & Bilbao 2016) times the
+    # response of the cascade of Klatt (1980) resonators (F4/F5 of the man's
+    # voice; F5 is left out at 10 kHz), up to one real constant gain.
     oq = 0.6
     period = int(round(rate / f0))
     y = synthesize_vowel(formants_hz=formants, f0_hz=f0, duration_s=1.0, rate_hz=rate, open_quotient=oq,
@@ -220,6 +222,9 @@ def test_output_spectrum_is_klglott88_source_times_klatt_cascade(formants, f0, r
     n = np.arange(period)
     tau = (n - (1.0 - oq) * period) / (oq * period)
     u = np.where(tau >= 0.0, 6.75 * tau ** 2 * (1.0 - tau), 0.0)
+    # closure falls on sample 0 of the next period: polyBLAMP residual
+    # S Ts (1 - |x|)^3 / 6 at x = 0, slope jump S = 6.75 / (OQ T)
+    u[0] += 6.75 / (oq * period) / 6.0
     e = u - np.roll(u, 1)                                    # radiation: first difference
     reps = 40
     E = np.fft.rfft(np.tile(e, reps))
@@ -639,7 +644,28 @@ def test_inverse_filtering_with_truth_recovers_the_klglott88_source():
     tau = (t - g[k] - (1.0 - oq) * T[k]) / (oq * T[k])
     inside = (t >= g[k]) & (t < g[k] + T[k]) & (tau >= 0)
     u = np.where(inside, amp[k] * 6.75 * tau ** 2 * (1.0 - tau), 0.0)
+    # polyBLAMP at each closure (Esqueda, Valimaki & Bilbao 2016): the two
+    # samples within one sample of it get S Ts (1 - |x|)^3 / 6
+    for c, per, a_k in zip(g + T, T, amp):
+        for i in (int(np.floor(c * rate)), int(np.floor(c * rate)) + 1):
+            d = abs(i - c * rate)
+            if i < len(u) and d < 1.0:
+                u[i] += a_k * 6.75 / (oq * per) / rate / 6.0 * (1.0 - d) ** 3
     e = np.diff(np.concatenate([[0.0], u]))
     scale = np.dot(x, e) / np.dot(e, e)
     assert scale > 0
     np.testing.assert_allclose(x / scale, e, atol=1e-7 * np.max(np.abs(e)))
+
+
+@pytest.mark.parametrize("f0, rate, limit_db", [(120.0, 8000.0, -32.0), (480.0, 8000.0, -28.0),
+                                                (120.0, 16000.0, -65.0), (480.0, 16000.0, -60.0)])
+def test_aliasing_of_the_source_stays_low(f0, rate, limit_db):
+    # a steady vowel is periodic: energy away from the harmonics of F0 (more
+    # than 15 Hz off, Hann window over 1.5 s) can only be aliasing of the
+    # sampled pulse. The polyBLAMP at closure keeps it this far down.
+    y = synthesize_vowel(formants_hz=(400.0, 1500.0, 2800.0), f0_hz=f0, duration_s=2.0, rate_hz=rate)
+    seg = y[int(0.5 * rate):]
+    power = np.abs(np.fft.rfft(seg * np.hanning(len(seg)))) ** 2
+    f = np.fft.rfftfreq(len(seg), 1.0 / rate)
+    harmonic = np.abs(f / f0 - np.round(f / f0)) * f0 < 15.0
+    assert 10 * np.log10(power[~harmonic].sum() / power[harmonic].sum()) < limit_db

@@ -10,7 +10,8 @@ formant synthesizer", JASA 67, 971-995) describes the cascade branch:
   phase, peak 1 at ``tau = 2/3``), scaled by the pulse amplitude. The pulse
   is evaluated analytically at each sample time, so glottal closure instants
   fall between samples and F0 is exact at any rate (no rounding of periods to
-  whole samples), up to F0 of rate/10.
+  whole samples), up to F0 of rate/10. The kink at closure is smoothed with
+  a two-point polyBLAMP (Esqueda, Valimaki & Bilbao 2016) against aliasing.
 * **Perturbation** -- jitter and shimmer as independent Gaussian draws per
   period, scaled so that the *local* measures (mean absolute difference of
   consecutive periods over mean period, %; mean absolute dB ratio of
@@ -45,10 +46,10 @@ fixed, rate-independent gain; other vowels and voices differ by several dB).
 :func:`render` does so only when asked.
 
 Limits (measured with this module): the source is sampled without
-oversampling, so the kink of each pulse at glottal closure aliases. Energy
-away from the harmonics is about -25 dB relative to the harmonics at 8 kHz
-(F0 120 Hz, where F4 3500 Hz lifts the folded part near Nyquist), -40 dB at
-11 kHz, below -45 dB at 16 kHz and above. Only the cascade branch is built
+oversampling; some aliasing of the pulse shape remains. Energy of the
+output away from the harmonics of a steady vowel, relative to the
+harmonics: about -37 dB at 8 kHz (F0 120 Hz; -33 dB at 480 Hz), -58 dB at
+11 kHz, below -70 dB at 16 kHz and above. Only the cascade branch is built
 (no parallel branch, no nasal pole-zero pair, no higher-pole correction), so
 above F5 the spectrum falls off. Aspiration is steady over each period (not
 gated by the glottal opening). F0 is limited to rate/10 (and 1000 Hz),
@@ -908,9 +909,10 @@ class KlattVoice:
         t = np.arange(n0, n0 + n) / fs
         t_first, t_last = n0 / fs, (n0 + n - 1) / fs
         self._grow_periods(t_last)
-        # drop periods that ended before this block
+        # drop periods that closed more than a sample before this block
+        # (a closure still shapes the sample after it, see below)
         while (self._live < len(self._p_start)
-               and self._p_start[self._live] + self._p_len[self._live] <= t_first):
+               and self._p_start[self._live] + self._p_len[self._live] + 1.0 / fs <= t_first):
             self._live += 1
         u = np.zeros(n)
         std = None
@@ -927,6 +929,20 @@ class KlattVoice:
             tau = (x - (1.0 - p.oq) * Tk) / (p.oq * Tk)
             tau = np.where(ok & (tau >= 0.0), tau, 0.0)     # open phase only
             u = ak * 6.75 * tau * tau * (1.0 - tau)        # KLGLOTT88 flow
+            # Band-limit the kink at glottal closure with a two-point
+            # polyBLAMP (Esqueda, Valimaki & Bilbao 2016): the flow's slope
+            # jumps by S = 6.75 amp / (OQ T) there; add S Ts (1-|x|)^3 / 6
+            # to the two samples within one sample (x) of the closure.
+            for gk, tk, ak_ in zip(g.tolist(), T.tolist(), amp.tolist()):
+                c = gk + tk
+                i0 = math.floor(c * fs)
+                step = ak_ * 6.75 / (p.oq * tk) / fs / 6.0
+                for i in (i0, i0 + 1):
+                    j = i - n0
+                    if 0 <= j < n:
+                        x = abs(i - c * fs)
+                        if x < 1.0:
+                            u[j] += step * (1.0 - x) ** 3
             if p.aspiration_gain > 0.0:
                 std = np.where(ok, p.aspiration_gain * ak * _voicing_rms_per_unit(1.0 / Tk, p.oq), 0.0)
         e = np.empty(n)
