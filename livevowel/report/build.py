@@ -101,6 +101,10 @@ def _result_cell(row) -> tuple[str, str]:
     res = result_of(row) if is_trial(row) else None
     coach = " (coach)" if row.get("override_hit") is not None else ""
     if res is None:
+        judged = result_of(row)
+        if judged is not None and not row.get("counted", 1):
+            return "none", (f'<span class="mk">\u25c7</span>not counted '
+                            f'<span class="flags">({"hit" if judged else "miss"})</span>')
         return "none", '<span class="mk">\u25c7</span>not judged'
     if res:
         return "hit", f'<span class="mk">\u25cf</span>hit{coach}'
@@ -108,7 +112,7 @@ def _result_cell(row) -> tuple[str, str]:
 
 
 def _attempts_table(sd: SessionData, clips: _Clips) -> str:
-    head = ('<table class="attempts"><thead><tr><th class="n">#</th><th class="n">time s</th><th>block</th>'
+    head = ('<table class="attempts"><thead><tr><th class="n">#</th><th class="n">start s</th><th class="n">block</th>'
             '<th class="n">trial</th><th>prompt</th><th>target</th><th>result</th><th class="n">score</th>'
             '<th class="n">F1 Hz</th><th class="n">F2 Hz</th><th class="n">F0 Hz</th><th>sounded like</th>'
             '<th>notes</th><th>clip</th></tr></thead><tbody>')
@@ -120,10 +124,10 @@ def _attempts_table(sd: SessionData, clips: _Clips) -> str:
             notes = (notes + "; " if notes else "") + f"coach: {a['override_note']}"
         if not a.get("counted", 1):
             notes = (notes + "; " if notes else "") + "excluded by the coach"
-        block = "\u2013" if a.get("block_index") is None else f"{a['block_index'] + 1} {a.get('block_id') or ''}"
+        block = "\u2013" if a.get("block_index") is None else str(a["block_index"] + 1)
         out.append(
             f'<tr class="{cls}" data-number="{a["number"]}"><td class="n">{a["number"]}</td>'
-            f'<td class="n">{H.num(a.get("start_s"), ".2f")}</td><td>{H.esc(block)}</td>'
+            f'<td class="n">{H.num(a.get("start_s"), ".2f")}</td><td class="n">{H.esc(block)}</td>'
             f'<td class="n">{H.esc(a.get("trial"))}</td><td>{H.esc(a.get("prompt"))}</td>'
             f'<td>{H.esc(a.get("target_id"))}</td><td class="res">{res}</td>'
             f'<td class="n">{H.num(a.get("closeness"))}</td><td class="n">{H.num(a.get("f1_hz"))}</td>'
@@ -132,6 +136,14 @@ def _attempts_table(sd: SessionData, clips: _Clips) -> str:
             f'<td>{clips.cell(sd.id, int(a["number"]), a.get("clip"))}</td></tr>')
     out.append("</tbody></table>")
     return "".join(out)
+
+
+_MODES = {"self_paced": "self-paced drill", "coach": "coach-led drill", "review": "reviewed from a recording",
+          "free": "free practice"}
+
+
+def _mode(mode: str | None) -> str:
+    return _MODES.get(mode or "", mode or "\u2013")
 
 
 def _input(source: str | None) -> str:
@@ -154,7 +166,7 @@ def _set_label(sd: SessionData) -> str:
 def _plane_caption(sd_list: Sequence[SessionData]) -> str:
     notes = [sd.target_set_note for sd in sd_list if sd.target_set_note]
     return ("Each attempt at the median F1 and F2 of its steady part: hit = green " + MARKERS["hit"] +
-            ", miss = orange-red " + MARKERS["miss"] + ", not judged (flagged or no prompt) = grey " +
+            ", miss = orange-red " + MARKERS["miss"] + ", not counted (flagged, excluded by the coach, or no prompt) = grey " +
             MARKERS["unjudged"] + ". Regions of the prompted targets are drawn solid at the hit size of their "
             "trials, the other targets of the set dashed; a dotted line joins each miss to the target it aimed at. "
             "F2 grows to the left and F1 downwards, as on a vowel chart." + (" " + " ".join(notes) if notes else ""))
@@ -256,7 +268,7 @@ def build_session_report(store, session_id: int, out: "str | os.PathLike", *, cl
     cl = _Clips(store.folder, [sd], clips, out)
     pairs = [("speaker (pseudonym)", spk), ("session", sd.id), ("started", _when(s.get("started_utc"))),
              ("ended", _when(s.get("ended_utc")) if s.get("ended_utc") else "not recorded (stopped abruptly)"),
-             ("drill", drill), ("target set", _set_label(sd)), ("mode", s.get("mode")),
+             ("drill", drill), ("target set", _set_label(sd)), ("mode", _mode(s.get("mode"))),
              ("input", _input(s.get("source"))), ("livevowel (session)", s.get("app_version")),
              ("voice group", (sd.speaker or {}).get("voice_group") or "\u2013")]
     if s.get("note"):
@@ -333,7 +345,7 @@ def build_speaker_report(store, speaker_id: str, out: "str | os.PathLike", *, si
     srows = "".join(
         f'<tr data-session="{sd.id}"><td class="n">{sd.id}</td><td>{H.esc(_when(sd.session.get("started_utc")))}</td>'
         f'<td>{H.esc(sd.session.get("drill"))}</td><td>{H.esc(sd.session.get("target_set"))}</td>'
-        f'<td>{H.esc(sd.session.get("mode"))}</td><td class="n">{len(sd.attempts)}</td>'
+        f'<td>{H.esc(_mode(sd.session.get("mode")))}</td><td class="n">{len(sd.attempts)}</td>'
         f'<td class="n trials">{sd.trials}</td><td class="n hits">{sd.hits}</td>'
         f'<td class="n acc">{H.pct(sd.hits, sd.trials)}</td></tr>' for sd in sessions)
     session_table = ('<table class="sessions"><thead><tr><th class="n">#</th><th>started</th><th>drill</th>'
@@ -358,7 +370,7 @@ def build_speaker_report(store, speaker_id: str, out: "str | os.PathLike", *, si
         body += [f"<h2>Session {sd.id} \u00b7 {H.esc(_when(s.get('started_utc')))} \u00b7 "
                  f"{H.esc(s.get('drill') or s.get('mode'))}</h2>",
                  H.meta_list([("target set", _set_label(sd)), ("input", _input(s.get("source"))),
-                              ("mode", s.get("mode")), ("livevowel", s.get("app_version"))]
+                              ("mode", _mode(s.get("mode"))), ("livevowel", s.get("app_version"))]
                              + ([("note", s["note"])] if s.get("note") else [])),
                  _session_numbers([sd]), _events_note(sd), _tables(sd), "<h3>Attempts</h3>",
                  _attempts_table(sd, cl)]

@@ -12,8 +12,8 @@ Universal Design (CUD): how to make figures and presentations that are
 friendly to colorblind people" (the same constants as the practice screen,
 :data:`livevowel.ui.theme.OKABE_ITO`). Hits and misses differ in shape as
 well as colour (filled circle vs cross), so the plane reads in grey print
-and for every kind of colour vision; attempts not judged are hollow
-diamonds.
+and for every kind of colour vision; attempts not counted (flagged,
+excluded or made without a prompt) are hollow diamonds.
 """
 
 from __future__ import annotations
@@ -159,7 +159,7 @@ def plane_figure(rows: Sequence[Mapping], target_set=None, *, title: str = "",
                         lw=0.8, alpha=0.45, ls=(0, (1, 2)), zorder=3.5)
     n = {k: len(v[0]) for k, v in groups.items()}
     ax.scatter(*groups["unjudged"], s=34, marker="D", facecolors="none", edgecolors=COLOURS["unjudged"],
-               linewidths=1.1, zorder=4, label=f"not judged ({n['unjudged']})")
+               linewidths=1.1, zorder=4, label=f"not counted ({n['unjudged']})")
     ax.scatter(*groups["hit"], s=72, marker="o", color=COLOURS["hit"], edgecolors="white", linewidths=0.7,
                zorder=5, label=f"hit ({n['hit']})")
     # misses on top, as thin crosses: a hit at the same place still shows through
@@ -216,9 +216,11 @@ def trend_figure(series: Mapping[str, Sequence], *, labels: Mapping[str, str] | 
     fig, ax = plt.subplots(figsize=(width_in, height_in), layout="constrained")
     sessions = sorted({(p.started_utc, p.session_id) for pts in series.values() for p in pts})
     pos = {sid: i for i, (_, sid) in enumerate(sessions)}
+    m = len(series)
     for k, (tid, pts) in enumerate(series.items()):
         colour, marker = SERIES[k % len(SERIES)]
-        x = [pos[p.session_id] for p in pts]
+        dodge = 0.07 * (k - (m - 1) / 2) if m > 1 else 0.0   # equal values side by side, not hidden
+        x = [pos[p.session_id] + dodge for p in pts]
         y = [100.0 * p.accuracy for p in pts]
         lab = (labels or {}).get(tid, tid)
         ax.plot(x, y, color=colour, lw=1.6, marker=marker, ms=6.5, mec="white", mew=0.7, label=lab, zorder=3)

@@ -53,7 +53,7 @@ figure img { width: 100%; max-width: 760px; height: auto; display: block; border
 figcaption { color: var(--muted); font-size: 12.5px; margin-top: 4px; max-width: 760px; }
 table { border-collapse: collapse; margin: 6px 0 10px; font-size: 13px; }
 th, td { padding: 3px 9px; text-align: left; border-bottom: 1px solid var(--rule); vertical-align: middle; }
-th { font-weight: 600; background: var(--soft); }
+th { font-weight: 600; background: var(--soft); white-space: nowrap; }
 td.n, th.n { text-align: right; font-variant-numeric: tabular-nums; }
 tr.hit td.res { color: #00795A; font-weight: 600; }
 tr.miss td.res { color: #B34E00; font-weight: 600; }
