@@ -932,7 +932,7 @@ class KlattVoice:
             # Band-limit the kink at glottal closure with a two-point
             # polyBLAMP (Esqueda, Valimaki & Bilbao 2016): the flow's slope
             # jumps by S = 6.75 amp / (OQ T) there; add S Ts (1-|x|)^3 / 6
-            # to the two samples within one sample (x) of the closure.
+            # to the two samples less than one sample (|x|) from the closure.
             for gk, tk, ak_ in zip(g.tolist(), T.tolist(), amp.tolist()):
                 c = gk + tk
                 i0 = math.floor(c * fs)
@@ -940,9 +940,9 @@ class KlattVoice:
                 for i in (i0, i0 + 1):
                     j = i - n0
                     if 0 <= j < n:
-                        x = abs(i - c * fs)
-                        if x < 1.0:
-                            u[j] += step * (1.0 - x) ** 3
+                        dist = abs(i - c * fs)
+                        if dist < 1.0:
+                            u[j] += step * (1.0 - dist) ** 3
             if p.aspiration_gain > 0.0:
                 std = np.where(ok, p.aspiration_gain * ak * _voicing_rms_per_unit(1.0 / Tk, p.oq), 0.0)
         e = np.empty(n)
