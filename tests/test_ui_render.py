@@ -219,3 +219,25 @@ def test_one_target_mode_and_controller_label(display, fonts, tset):
     c.label = "say \u201cbat\u201d  \u00b7  block 1/2 trial 3"  # a drill controller rewrites its label
     s.draw(display, now_s=0.0)
     assert not np.array_equal(pygame.surfarray.array3d(display)[:, :s._layout.header.bottom], header)
+
+
+def test_trail_joins_a_glide_but_never_bridges_a_gap_in_the_voice(display, fonts, tset):
+    a, b = (400.0, 2200.0), (700.0, 1300.0)
+
+    def picture(frames):
+        s = make(tset, fonts, trail=True, trail_s=0.3)
+        s.feed(frames, now_s=0.0)
+        s.draw(display, now_s=0.0)
+        mx, my = s._plane.to_pixel((a[0] + b[0]) / 2, (a[1] + b[1]) / 2)
+        return rgb(display, mx, my)
+
+    only_b = picture([frame(0.20 + i * 0.01, *b) for i in range(5)])
+    # a glide from a to b within 100 ms: the trail passes the midpoint
+    glide = [frame(0.10 + i * 0.01, a[0] + (b[0] - a[0]) * i / 10, a[1] + (b[1] - a[1]) * i / 10)
+             for i in range(11)]
+    assert picture(glide + [frame(0.21 + i * 0.01, *b) for i in range(4)]) != only_b
+    # a, then 50 ms without voice, then b: nothing is drawn between them
+    gap = [frame(0.10 + i * 0.01, *a) for i in range(5)]
+    gap += [frame(0.15 + i * 0.01, math.nan, math.nan, voiced=False, conf=0.0) for i in range(5)]
+    gap += [frame(0.20 + i * 0.01, *b) for i in range(5)]
+    assert picture(gap) == only_b

@@ -76,25 +76,27 @@ def arc(surface, x: float, y: float, r: float, fraction: float, color: RGB, widt
         pygame.draw.circle(surface, color, (int(round(px)), int(round(py))), max(1, width // 2))
 
 
-def dot_with_trail(surface, trail: Sequence[tuple[float, float, float]], x: float | None, y: float | None,
-                   *, confidence: float, color: RGB, edge: RGB, radius: float) -> None:
+def dot_with_trail(surface, trail: Sequence[tuple[float, float, float, float]], x: float | None,
+                   y: float | None, *, confidence: float, color: RGB, edge: RGB, radius: float) -> None:
     """The voice dot and the fading trail behind it.
 
-    ``trail`` holds (x, y, age_fraction) with age 0 (newest) .. 1 (oldest);
-    older points are smaller and fainter. The dot's radius and opacity grow
-    with ``confidence`` (0..1). Pass ``x=None`` for no dot (trail only).
+    ``trail`` holds (x, y, age_fraction, stroke) with age 0 (newest) .. 1
+    (oldest); older points are smaller and fainter. Successive points of the
+    same stroke are joined; a new stroke (after a gap in the voice) is not
+    joined to the last. The dot's radius and opacity grow with
+    ``confidence`` (0..1). Pass ``x=None`` for no dot (trail only).
     """
     # fill gaps between successive trail points so a fast glide reads as a stroke
     pts: list[tuple[float, float, float]] = []
     step = max(2.0, radius * 0.3)
     for i, p in enumerate(trail):
-        if i:
+        if i and trail[i - 1][3] == p[3]:
             q = trail[i - 1]
             n = int(math.hypot(p[0] - q[0], p[1] - q[1]) // step)
             for k in range(1, n):
                 w = k / n
                 pts.append((q[0] + w * (p[0] - q[0]), q[1] + w * (p[1] - q[1]), q[2] + w * (p[2] - q[2])))
-        pts.append(p)
+        pts.append(p[:3])
     for tx, ty, age in pts:
         a = 1.0 - age
         disc(surface, tx, ty, radius * (0.22 + 0.4 * a), color, int(18 + 100 * a * a), aa=False)

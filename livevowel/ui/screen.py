@@ -161,7 +161,8 @@ class PracticeScreen:
         self.message = ""
         self._outlines = {t.id: np.asarray(t.outline_hz(64), dtype=float) for t in self.targets}
         self._centres = {t.id: (float(t.f1_hz), float(t.f2_hz)) for t in self.targets}
-        self._trail: deque = deque()
+        self._trail: deque = deque()   # (time_s, f1_hz, f2_hz, stroke number)
+        self._stroke = 0
         self._dot: Any = None          # newest reliable frame, or None
         self._last_frame: Any = None   # newest frame of any kind
         self._newest_t = -math.inf
@@ -223,10 +224,11 @@ class PracticeScreen:
             self._newest_t = t
             if ok:
                 self._dot = fr
-                self._trail.append((t, float(fr.f1_hz), float(fr.f2_hz)))
+                self._trail.append((t, float(fr.f1_hz), float(fr.f2_hz), float(self._stroke)))
                 self.dot_log.append((t, float(fr.f1_hz), float(fr.f2_hz), cur.id, inside))
             else:
                 self._dot = None
+                self._stroke += 1  # the trail is never drawn across a gap in the voice
         horizon = self._newest_t - self.options.trail_s
         while self._trail and self._trail[0][0] < horizon:
             self._trail.popleft()
@@ -449,11 +451,11 @@ class PracticeScreen:
         trail_pts = []
         if self.show_trail and self._trail and not self.paused and now_s - self._last_arrival <= 1.0:
             span = max(1e-3, self.options.trail_s)
-            pts = np.array(list(self._trail)[:-1] if visible else list(self._trail), dtype=float).reshape(-1, 3)
+            pts = np.array(list(self._trail)[:-1] if visible else list(self._trail), dtype=float).reshape(-1, 4)
             if len(pts):
                 xs, ys = plane.to_pixel(pts[:, 1], pts[:, 2])
                 ages = np.minimum(1.0, (self._newest_t - pts[:, 0]) / span)
-                trail_pts = list(zip(xs.tolist(), ys.tolist(), ages.tolist()))
+                trail_pts = list(zip(xs.tolist(), ys.tolist(), ages.tolist(), pts[:, 3].tolist()))
         dx = dy = None
         if visible:
             x, y = plane.to_pixel(self._dot.f1_hz, self._dot.f2_hz)
