@@ -189,14 +189,14 @@ def _lag_index(n: int) -> np.ndarray:
 
 
 def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 600.0,
-        threshold: float = 0.15, fallback: bool = False, dip_search: float = 0.15,
-        return_cmnd: bool = False):
+        threshold: float = 0.15, fallback: bool = False, skip_factor: float | None = 2.0,
+        skip_margin: float = 0.05, return_cmnd: bool = False):
     """YIN fundamental-frequency estimate per frame (de Cheveigné & Kawahara 2002).
 
     Steps 2-5 of the paper: difference function, cumulative mean normalised
     difference (CMND), absolute threshold (the first lag in range whose CMND
-    falls below ``threshold``; then the deepest value up to ``1 +
-    dip_search`` times that lag, followed down to its local minimum), and
+    falls below ``threshold``, i.e. the first local minimum below it; dips
+    much shallower than the deepest one are skipped, see ``skip_factor``), and
     parabolic interpolation of the raw difference function around that lag.
 
     Frame length: ``N >= yin_frame_length(rate_hz=..., f0_min_hz=...)``, i.e.
@@ -217,14 +217,21 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     fallback : bool
         If no lag falls below ``threshold``, take the global CMND minimum in
         range (paper step 4) instead of returning NaN.
-    dip_search : float
-        After the first lag below ``threshold``, take the deepest CMND value
-        up to ``(1 + dip_search)`` times that lag (then its local minimum).
-        A strong high formant (F2/F3 of /i/) puts shallow dips one formant
-        cycle before the period, and the paper's rule (``dip_search=0``)
-        can stop there (an F0 several per cent high); 0.15 reaches past
-        them but stays far below the sub-harmonic at twice the lag. This
-        is a livevowel refinement of the paper's step 4.
+    skip_factor, skip_margin : float
+        A dip (local minimum of the CMND) below ``threshold`` is skipped when
+        its depth exceeds ``skip_factor * m + skip_margin``, ``m`` being the
+        depth of the deepest dip in range (depths refined by a parabola
+        through each dip's three lags); the first dip left is taken. With
+        ``fallback`` and no dip below the threshold, the first dip within
+        ``skip_margin`` of the deepest is taken. ``skip_factor=None`` is
+        the paper's rule (first dip below threshold; global minimum as
+        fallback). Two failure modes of that rule on voiced speech go away:
+        a strong second harmonic (F1 near 2 F0) makes a dip at half the
+        period (F0 an octave high), and strong high formants (F2/F3 of /i/)
+        make shallow dips one formant cycle before the period (F0 a few per
+        cent high). A true period is passed over for a multiple only if the
+        multiple is more than twice as deep (plus the margin). A livevowel
+        refinement of step 4 of the paper.
     return_cmnd : bool
         Also return the CMND ``d'`` (n_frames, tau_max + 2) for lags
         0..tau_max+1 (e.g. for an octave check at twice the chosen lag)
@@ -236,15 +243,16 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
         F0 in Hz; NaN when no period was found.
     aperiodicity : array (n_frames,)
         CMND value at the chosen lag (0 = perfectly periodic, about 1 = noise);
-        for frames without a period, the minimum CMND over the search range.
+        for frames without a period (no ``fallback``), the minimum CMND over
+        the search range.
     cmnd : array (n_frames, tau_max + 2), only with ``return_cmnd=True``.
     """
     x = _frames_2d(frames)
     rate, tau_min, tau_max = _lags(rate_hz, f0_min_hz, f0_max_hz)
     if not (0.0 < float(threshold) < 1.0):
         raise ValueError(f"threshold must be between 0 and 1, got {threshold!r}")
-    if not (0.0 <= float(dip_search) < 1.0):
-        raise ValueError(f"dip_search must be in [0, 1), got {dip_search!r}")
+    if skip_factor is not None and not (float(skip_factor) >= 1.0 and float(skip_margin) >= 0.0):
+        raise ValueError(f"need skip_factor >= 1 and skip_margin >= 0, got {skip_factor!r} and {skip_margin!r}")
     n_frames, n = x.shape
     need = 2 * tau_max + 1
     if n < need:
@@ -255,27 +263,32 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     d = _difference(x, tau_max + 1, w)
     dp = _cmnd(d)
     sub = dp[:, tau_min: tau_max + 1]             # lags tau_min .. tau_max
-    below = sub < threshold
-    found = below.any(axis=1)
-    first = below.argmax(axis=1)                  # index into sub of the first lag below threshold
-    idx = _lag_index(sub.shape[1] + 1) - 1.0      # 0 .. L-1 as float
-    if dip_search > 0:
-        # deepest CMND value from the first dip up to (1 + dip_search) times its lag
-        last = np.floor((first + tau_min) * (1.0 + dip_search)) - tau_min
-        window = (idx[None, :] >= first[:, None]) & (idx[None, :] <= last[:, None])
-        start = np.where(window, sub, np.inf).argmin(axis=1)
-    else:
-        start = first
-    # follow the dip down to its local minimum: first lag >= start with d'(t+1) >= d'(t)
-    rising = np.empty(sub.shape, dtype=bool)
-    np.greater_equal(sub[:, 1:], sub[:, :-1], out=rising[:, :-1])
-    rising[:, -1] = True
-    rising &= idx[None, :] >= start[:, None]
-    best = rising.argmax(axis=1) + tau_min
-    gmin = sub.argmin(axis=1) + tau_min
+    left = dp[:, tau_min - 1: tau_max]          # d'(tau - 1); tau_min >= 2
+    right = dp[:, tau_min + 1: tau_max + 2]     # d'(tau + 1); d' has lags up to tau_max + 1
+    dip = (sub <= left) & (sub <= right)        # local minima of d'
     rows = np.arange(n_frames)
+    gmin = sub.argmin(axis=1) + tau_min
+    if skip_factor is None:
+        pick = dip & (sub < threshold)
+        found = pick.any(axis=1)
+        best = pick.argmax(axis=1) + tau_min
+        if fallback:
+            best = np.where(found, best, gmin)
+    else:
+        # depth of each dip, refined by a parabola through its three points
+        # (a dip between two lags reads too shallow at either of them)
+        curv = left - 2.0 * sub + right
+        depth = sub - (left - right) ** 2 / (8.0 * np.where(curv > 0, curv, 1.0))
+        depth = np.where(dip & (curv > 0), np.maximum(depth, 0.0), sub)
+        deepest = np.where(dip, depth, np.inf).min(axis=1, keepdims=True)
+        pick = dip & (sub < threshold) & (depth <= skip_factor * deepest + skip_margin)
+        found = pick.any(axis=1)
+        best = pick.argmax(axis=1) + tau_min
+        if fallback:
+            # no dip below the threshold: the first dip about as deep as the deepest
+            near = dip & (depth <= deepest + skip_margin)
+            best = np.where(found, best, np.where(near.any(axis=1), near.argmax(axis=1) + tau_min, gmin))
     if fallback:
-        best = np.where(found, best, gmin)
         aper = dp[rows, best]
         found = np.ones(n_frames, dtype=bool)
     else:
