@@ -548,46 +548,65 @@ class PracticeScreen:
             D.blit_text(surface, F.text(msg, small, col), lay.plot.left + 6 * u, lay.plot.bottom - 6 * u,
                         "bottomleft")
 
-    def _panel(self, surface, width: int, height: int) -> pygame.Rect:
-        th = self.theme
-        veil = pygame.Surface(surface.get_size(), pygame.SRCALPHA)
-        veil.fill((*th.background, 150))
-        surface.blit(veil, (0, 0))
-        r = pygame.Rect(0, 0, min(width, surface.get_width() - 20), min(height, surface.get_height() - 20))
-        r.center = surface.get_rect().center
-        panel = pygame.Surface(r.size, pygame.SRCALPHA)
-        panel.fill(th.overlay)
+    def _overlay(self, surface, kind: str, build) -> None:
+        """Blit a centred panel; ``build(width_limit, height_limit)`` returns its opaque surface.
+
+        The panel is composed once per kind, window size, theme and text and
+        cached, so an open help or caution costs one opaque blit per frame.
+        """
+        key = (kind, surface.get_size(), self.theme_name, self.large_text, self.caution_text)
+        cache = self.__dict__.setdefault("_overlays", {})
+        panel = cache.get(key)
+        if panel is None:
+            cache.clear()
+            panel = build(surface.get_width() - 20, surface.get_height() - 20)
+            cache[key] = panel
+        r = panel.get_rect(center=surface.get_rect().center)
         surface.blit(panel, r)
-        pygame.draw.rect(surface, th.current, r, max(2, int(3 * self._layout.u)), border_radius=6)
-        return r
+
+    def _panel_surface(self, width: int, height: int) -> pygame.Surface:
+        th = self.theme
+        p = pygame.Surface((max(10, width), max(10, height)))
+        p.fill(th.overlay[:3])
+        pygame.draw.rect(p, th.current, p.get_rect(), max(2, int(3 * self._layout.u)))
+        return p
 
     def _draw_help(self, surface) -> None:
         th, F, u = self.theme, self.fonts, self._layout.u
-        size = int(22 * u)
-        line = int(size * 1.55)
-        r = self._panel(surface, int(760 * u), int((len(KEY_HELP) + 3) * line))
-        y = r.top + line
-        D.blit_text(surface, F.text("Keys", int(26 * u), th.text, bold=True), r.left + 30 * u, y, "midleft")
-        for k, what in KEY_HELP:
-            y += line
-            D.blit_text(surface, F.text(k, size, th.current, bold=True), r.left + 30 * u, y, "midleft")
-            D.blit_text(surface, F.text(what, size, th.text), r.left + 250 * u, y, "midleft")
+
+        def build(wmax: int, hmax: int) -> pygame.Surface:
+            size = int(22 * u)
+            line = int(size * 1.55)
+            p = self._panel_surface(min(int(760 * u), wmax), min(int((len(KEY_HELP) + 3) * line), hmax))
+            y = line
+            D.blit_text(p, F.text("Keys", int(26 * u), th.text, bold=True), 30 * u, y, "midleft")
+            for k, what in KEY_HELP:
+                y += line
+                D.blit_text(p, F.text(k, size, th.current, bold=True), 30 * u, y, "midleft")
+                D.blit_text(p, F.text(what, size, th.text), 250 * u, y, "midleft")
+            return p
+
+        self._overlay(surface, "help", build)
 
     def _draw_caution(self, surface) -> None:
         th, F, u = self.theme, self.fonts, self._layout.u
-        size = int(24 * u)
-        width = int(820 * u)
-        lines = D.wrap_text(F, self.caution_text or "", size, width - int(60 * u))
-        line = int(size * 1.5)
-        r = self._panel(surface, width, (len(lines) + 4) * line)
-        y = r.top + line
-        D.blit_text(surface, F.text("Before you start", int(28 * u), th.text, bold=True), r.left + 30 * u, y,
-                    "midleft")
-        for ln in lines:
-            y += line
-            D.blit_text(surface, F.text(ln, size, th.text), r.left + 30 * u, y, "midleft")
-        D.blit_text(surface, F.text("Press any key to continue", int(20 * u), th.muted_text), r.left + 30 * u,
-                    r.bottom - line * 0.8, "midleft")
+
+        def build(wmax: int, hmax: int) -> pygame.Surface:
+            size = int(24 * u)
+            width = min(int(820 * u), wmax)
+            lines = D.wrap_text(F, self.caution_text or "", size, width - int(60 * u))
+            line = int(size * 1.5)
+            p = self._panel_surface(width, min((len(lines) + 4) * line, hmax))
+            y = line
+            D.blit_text(p, F.text("Before you start", int(28 * u), th.text, bold=True), 30 * u, y, "midleft")
+            for ln in lines:
+                y += line
+                D.blit_text(p, F.text(ln, size, th.text), 30 * u, y, "midleft")
+            D.blit_text(p, F.text("Press any key to continue", int(20 * u), th.muted_text), 30 * u,
+                        p.get_height() - line * 0.8, "midleft")
+            return p
+
+        self._overlay(surface, "caution", build)
 
 
 def _fmt(v: float, units: str) -> str:
