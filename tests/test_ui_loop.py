@@ -59,14 +59,16 @@ def test_caution_is_shown_once_per_user(tset, tmp_path):
     assert loop.caution_needed()
     loop.init_display(headless=False)  # dummy video driver in tests, but the windowed code path
     s = PracticeScreen(tset, options=ScreenOptions(fps=240))
-    r = loop.run(s, FramesPipeline(frames_at(tset.get("lot"), 40)), headless=False, keep_open=False)
-    assert s.caution_text == CAUTION
-    assert s.counter.attempts == 0 and r.frames == 0  # nothing scored while the caution is up
-    assert s.handle_event(pygame.event.Event(pygame.KEYDOWN, key=pygame.K_SPACE, unicode=" ", mod=0)) \
-        == "caution-closed"
-    loop.remember_caution()
+    s.controller.select("lot")
+    pipe = FramesPipeline(frames_at(tset.get("lot"), 40))
+    # run() puts the caution up and holds the input back until a key is pressed (a
+    # Space that reached the screen instead would pause it: no hit, no marker)
+    pygame.event.post(pygame.event.Event(pygame.KEYDOWN, key=pygame.K_SPACE, unicode=" ", mod=0))
+    r = loop.run(s, pipe, headless=False, keep_open=False)
+    assert pipe.started and s.caution_text is None and s.counter.hits == 1 and r.frames == 40
     assert not loop.caution_needed()
     assert (tmp_path / "user-data" / loop.CAUTION_MARKER).is_file()
+    assert CAUTION in (tmp_path / "user-data" / loop.CAUTION_MARKER).read_text(encoding="utf-8")
     s2 = PracticeScreen(tset, options=ScreenOptions(fps=240))
     s2.controller.select("lot")
     loop.run(s2, FramesPipeline(frames_at(tset.get("lot"), 40)), headless=False, keep_open=False)

@@ -126,7 +126,8 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
     fps : int, optional
         Frame rate (default the screen's option, 60), headless too.
     show_caution : bool
-        Show the first-start caution when it has not been read yet (never headless).
+        Show the first-start caution when it has not been read yet (never
+        headless); the input starts only once it has been dismissed.
     pace : float
         Input pace (1 real time, 0 as fast as possible); sets the wall-clock
         safety limit of headless runs.
@@ -155,7 +156,7 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
     if headless:
         span = seconds if seconds is not None else 3600.0
         limit_wall = span / pace + 30.0 if pace > 0 else span * 4 + 60.0
-    pipeline.start()
+    started = False  # the input starts once the caution (if shown) has been read
     is_full = bool(fullscreen and not headless)
     try:
         while True:
@@ -178,12 +179,13 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
             if res.quit_by_user:
                 break
             surface = pygame.display.get_surface()
-            frames = pipeline.drain()
+            if not started and screen.caution_text is None:
+                pipeline.start()
+                started = True
+            frames = pipeline.drain() if started else []
             now = time.monotonic()
-            if screen.caution_text is not None:
-                frames = []  # nothing is scored until the caution is read
             screen.feed(frames, now_s=now)
-            screen.set_health(pipeline.health())
+            screen.set_health(pipeline.health() if started else None)
             res.frames += len(frames)
             if frames:
                 res.input_s = float(frames[-1].time_s)
@@ -194,7 +196,7 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
             res.ticks += 1
             if seconds is not None and res.input_s >= seconds:
                 break
-            if pipeline.done and not frames:
+            if started and pipeline.done and not frames:
                 if headless or not keep_open:
                     break
                 screen.message = "the input has ended  ·  Esc to quit"
@@ -208,7 +210,8 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
         if screenshot is not None:
             res.screenshot = save_screenshot(surface, screenshot)
     finally:
-        pipeline.stop()
+        if started:
+            pipeline.stop()
         res.wall_s = time.monotonic() - t0
         pygame.display.quit()
     return res
