@@ -327,3 +327,19 @@ def test_export_json_history_equals_sql(record, tmp_path, capsys):
     assert main(["export", "1", "--speaker", "S31", "--out", "-", "--data", str(record["data"])]) == 2
     assert main(["export", "1", "--csv", str(tmp_path / "a.csv"), "--format", "json",
                  "--data", str(record["data"])]) == 2
+
+
+def test_mapped_set_is_rebuilt_from_the_stored_profile():
+    from livevowel.report.data import resolve_target_set
+    from livevowel.targets import load_target_set
+
+    base = load_target_set("gae-men")
+    prof = json.dumps({"transform": {"factors": {"f1": 1.1, "f2": 1.05, "f3": 1.0}}})
+    ts, note = resolve_target_set({"target_set": "gae-men@S40"}, {"profile_json": prof})
+    assert note == "" and ts.id == "gae-men@S40"
+    assert ts.get("fleece").f1_hz == pytest.approx(1.1 * base.get("fleece").f1_hz)
+    assert ts.get("fleece").f2_hz == pytest.approx(1.05 * base.get("fleece").f2_hz)
+    ts, note = resolve_target_set({"target_set": "gae-men@S40"}, {"profile_json": None})
+    assert ts.id == "gae-men" and "unmapped" in note
+    ts, note = resolve_target_set({"target_set": "/nowhere/set.yaml"}, None)
+    assert ts is None and "not drawn" in note

@@ -31,9 +31,10 @@ least one recording had no speech or could not be read (the others are
 still reviewed and stored); 2 for bad options, an unknown target set or
 drill, or a damaged session record (nothing reviewed).
 
-Speakers appear in the record only under a pseudonymous id (--speaker).
-Local rules on health-data privacy apply to the data folder.
-This is a practice and feedback tool, not a diagnostic or medical device."""
+Speakers appear in the record only under a pseudonymous id (--speaker);
+name the recordings by pseudonym too, as reports show their file names
+(never their folders). Local rules on health-data privacy apply to the data
+folder. This is a practice and feedback tool, not a diagnostic or medical device."""
 EPILOG = """\
 examples:
   livevowel review homework/S07-week3.wav --targets gae-men --drill front-vowels-five-vowel-l1 --speaker S07

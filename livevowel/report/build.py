@@ -93,7 +93,7 @@ class _Clips:
             shutil.copyfile(p, dest)
             src = H.esc(rel.as_posix())
         return (f'<audio controls preload="none" src="{src}"></audio>'
-                f'<span class="clipname">{H.esc(rel.as_posix()) if self.mode == "link" else name}</span>')
+                f'<span class="clipname">{H.esc(rel.as_posix())}</span>')
 
 
 def _result_cell(row) -> tuple[str, str]:

@@ -227,11 +227,13 @@ def trend_figure(series: Mapping[str, Sequence], *, labels: Mapping[str, str] | 
     ax.set_ylim(-4, 104)
     ax.set_yticks([0, 25, 50, 75, 100])
     ax.set_yticklabels(["0 %", "25 %", "50 %", "75 %", "100 %"])
-    ax.set_xticks(range(len(sessions)))
-    ax.set_xticklabels([f"#{sid}\n{utc[5:10]}" for utc, sid in sessions], fontsize=8)
+    step = max(1, math.ceil(len(sessions) / 8))       # at most 8 labels (dates), however long the history
+    ticks = list(range(0, len(sessions), step))
+    ax.set_xticks(ticks)
+    ax.set_xticklabels([f"#{sessions[i][1]}\n{sessions[i][0][:10]}" for i in ticks], fontsize=7.5)
     ax.set_xlim(-0.5, max(0.5, len(sessions) - 0.5))
     ax.set_ylabel("accuracy (hits / trials)")
-    ax.set_xlabel("session (number, month-day UTC)")
+    ax.set_xlabel("session (number, date UTC)")
     ax.grid(True, axis="y", color=COLOURS["grid"], lw=0.7, zorder=0)
     for side in ("top", "right"):
         ax.spines[side].set_visible(False)

@@ -81,6 +81,9 @@ footer { margin-top: 28px; padding-top: 8px; border-top: 1px solid var(--rule); 
   audio { display: none; }
   .clipname { display: inline; }
   .settings { font-size: 7.5pt; }
+  .numbers { gap: 6px; }
+  .numbers div { min-width: 0; padding: 3px 10px; }
+  .numbers b { font-size: 13pt; }
   a { color: inherit; text-decoration: none; }
   * { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
 }
