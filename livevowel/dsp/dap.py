@@ -45,7 +45,8 @@ LOST_WEIGHT = 0.3
 
 
 def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, max_hz: float,
-                    nfft: int = 2048, search: float = 0.25, noise_floor: bool = True) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                    nfft: int = 2048, search: float = 0.25, noise_floor: bool = True,
+                    window: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Power and frequency of each harmonic of windowed frames.
 
     Parameters
@@ -63,6 +64,9 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
     search : float
         Each harmonic's peak is the largest bin within ``+-search * F0`` of
         ``k * F0``; its frequency is refined by a parabola through the log power.
+    window : ndarray, optional
+        The taper the frames were multiplied by; its leakage into the
+        valleys is then discounted from the noise estimate.
     noise_floor : bool
         Subtract the mean power of the valleys on either side of each
         harmonic (noise plus leakage; keeping at least 10 % of the peak) and
@@ -123,6 +127,15 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
         vidx = np.clip(vb, 0, spec.shape[1] - 1).astype(int)
         vv = np.where(vin, spec[rows, vidx], 0.0)
         valley = vv.sum(axis=2) / np.maximum(vin.sum(axis=2), 1)
+        if window is not None:
+            # remove what the taper leaks into the valley from the two
+            # harmonics beside it (matters at low F0, where valleys are shallow)
+            wspec = np.abs(np.fft.rfft(np.asarray(window, dtype=np.float64), nfft)) ** 2
+            wspec = wspec / wspec[0]
+            half_bins = 0.5 * np.where(ok, f0, 0.0) / df
+            leak = np.interp(half_bins, np.arange(len(wspec)), wspec)[:, None]
+            nxt = np.concatenate([p0[:, 1:], p0[:, -1:]], axis=1)
+            valley = np.maximum(valley - leak * (p0 + nxt), 0.0)
         below = np.concatenate([valley[:, :1], valley[:, :-1]], axis=1)   # valley under the harmonic
         noise = 0.5 * (valley + below)
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -182,19 +195,32 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
     if not np.any(ok):
         return a, ok
     idx = np.arange(p + 1)
-    toe = r[:, np.abs(idx[:, None] - idx[None, :])]                  # (n, p+1, p+1)
-    emj = np.exp(-1j * lags[None, :, None] * omega[:, None, :])      # e^{-j k w_m}, (n, p+1, M)
+    sel = np.flatnonzero(ok)
+    toe = r[sel][:, np.abs(idx[:, None] - idx[None, :])]            # (n', p+1, p+1), fixed
+    try:
+        tinv = np.linalg.inv(toe)
+    except np.linalg.LinAlgError:
+        return a, np.zeros_like(ok)
+    cos_s = cosm[sel]                                                # cos(k w_m), (n', p+1, M)
+    sin_s = np.sin(lags[None, :, None] * omega[sel][:, None, :])     # sin(k w_m)
+    m_ = cos_s.shape[2]
+    fwd = np.concatenate([cos_s, -sin_s], axis=2)                    # a @ fwd = [Re A, Im A]
+    back_t = np.concatenate([cos_s, sin_s], axis=2).transpose(0, 2, 1)   # [Hr, Hi] @ back_t = h
+    ws = w[sel]
+    ws2 = np.concatenate([ws, -ws], axis=1)[:, None, :]
+    live = np.concatenate([ws > 0, ws > 0], axis=1)[:, None, :]
+    norm = np.maximum(cnt[sel], 1)[:, None, None]
+    aa = a[sel][:, None, :].copy()                                   # (n', 1, p+1)
     for _ in range(int(iterations)):
-        a_w = np.einsum("nk,nkm->nm", a, emj)                        # A(e^{jw_m})
+        # A(e^{jw}) = sum_k a_k e^{-jkw} = ar + j ai;  H = 1/A = (ar - j ai)/|A|^2
+        ri = aa @ fwd                                                # (n', 1, 2M)
+        mag = ri[:, :, :m_] ** 2 + ri[:, :, m_:] ** 2
         with np.errstate(divide="ignore", invalid="ignore"):
-            hm = np.where(w > 0, w / a_w, 0.0)
-        h = np.real(np.einsum("nm,nkm->nk", hm, emj)) / np.maximum(cnt, 1)[:, None]   # h(-k)
-        try:
-            c = np.linalg.solve(toe[ok], h[ok][:, :, None])[:, :, 0]
-        except np.linalg.LinAlgError:
-            break
-        good = np.isfinite(c).all(axis=1) & (np.abs(c[:, 0]) > 0)
-        new = a[ok].copy()
-        new[good] = c[good] / c[good, :1]
-        a[ok] = new
+            hri = np.where(live, ws2 * ri / np.concatenate([mag, mag], axis=2), 0.0)   # [w Hr, w Hi]
+        # h(-k) = 1/M sum_m w_m Re(H_m e^{-jkw_m}) = 1/M sum_m w_m (Hr cos + Hi sin)
+        h = (hri @ back_t) / norm                                    # (n', 1, p+1)
+        c = h @ tinv.transpose(0, 2, 1)                              # (tinv @ h^T)^T
+        good = np.isfinite(c).all(axis=2)[:, 0] & (np.abs(c[:, 0, 0]) > 0)
+        aa[good] = c[good] / c[good][:, :, :1]
+    a[sel] = aa[:, 0, :]
     return a, ok

@@ -163,37 +163,33 @@ class StreamResampler:
         self._done = False
 
     def _available_groups(self, n_in: int) -> int:
-        # Output n needs input index (n*down)//up; a group starting at g*G needs
-        # input up to ((g*G + G - 1)*down)//up.
-        count = 0
-        start = self._next
-        while ((start + self.group - 1) * self.down) // self.up < n_in:
-            count += 1
-            start += self.group
-        return count
+        # Output n needs input index (n*down)//up; a group starting at s needs
+        # input up to ((s + G - 1)*down)//up, i.e. s + G - 1 <= last_n with
+        # last_n the largest n whose input index is below n_in.
+        last_n = (n_in * self.up - 1) // self.down
+        return max(0, (last_n - self._next + 1) // self.group)
 
     def _compute_groups(self, n_groups: int) -> np.ndarray:
-        out = []
+        if n_groups <= 0:
+            return np.zeros(0)
         filt = self._filt
         q = filt.taps.shape[1]
-        for _ in range(n_groups):
-            base_t = self._next * self.down
-            base_i, base_p = divmod(base_t, self.up)
-            # positions for this group: t = base_t + n*down
-            p = (base_p + self._p) % self.up
-            i0 = base_i + (base_p + self._p) // self.up + self._i0
-            idx = i0[:, None] - self._j[None, :]          # input indices (G, q)
-            rel = idx - self._buf0 + 0
-            x = np.where(idx >= 0, self._buf[np.clip(rel, 0, len(self._buf) - 1)] if len(self._buf) else 0.0, 0.0)
-            y = (x * filt.taps[p]).sum(axis=1)
-            out.append(y)
-            self._next += self.group
-        # drop input no longer needed
+        # all outputs of the groups at once: each output is the same dot
+        # product of the same q values, so its value does not depend on how
+        # many groups are made in one call (row-wise reduction)
+        n = self._next + np.arange(n_groups * self.group)
+        t = n * self.down
+        i0, p = np.divmod(t, self.up)
+        idx = i0[:, None] - self._j[None, :]                      # input indices (M, q)
+        rel = np.clip(idx - self._buf0, 0, max(len(self._buf) - 1, 0))
+        x = np.where(idx >= 0, self._buf[rel] if len(self._buf) else 0.0, 0.0)
+        y = np.einsum("ij,ij->i", x, filt.taps[p])
+        self._next += n_groups * self.group
         keep_from = max(0, (self._next * self.down) // self.up - q - 1)
         if keep_from > self._buf0:
             self._buf = self._buf[keep_from - self._buf0:]
             self._buf0 = keep_from
-        return np.concatenate(out) if out else np.zeros(0)
+        return y
 
     def _trim(self, y: np.ndarray, limit: int | None) -> np.ndarray:
         # Map stream outputs to aligned outputs: drop the first pre_remove.
