@@ -53,7 +53,10 @@ def add_drill_options(parser: argparse.ArgumentParser, *, file_positional: bool 
     g.add_argument("--speaker", metavar="ID", help="pseudonymous speaker id (e.g. S07; never a name)")
     if not practice:
         g.add_argument("--profile", metavar="FILE",
-                       help="speaker profile: judge in the speaker's own space (sets --speaker when not given)")
+                       help="speaker profile: judge in the speaker's own space (sets --speaker when not given; "
+                            "it is stored with the speaker and used again with --speaker ID)")
+    g.add_argument("--no-profile", action="store_true",
+                   help="judge in the set's own space even when a profile is stored with the speaker")
     g.add_argument("--voice-group", metavar="G", choices=("adult_male", "adult_female", "child"),
                    help="voice group to record for a new speaker")
     if not practice:
@@ -123,7 +126,6 @@ def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
         speaker = profile.speaker_id
     if speaker is not None:
         check_speaker_id(speaker)
-    judged_set = profile.map_set(ts) if profile is not None else ts
     try:
         att = AttemptSettings.from_config(settings)
     except KeyError:  # no attempts section in this build's settings
@@ -131,6 +133,13 @@ def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
     sess_cfg = settings.values.get("session", {})
     clips = not args.no_clips and sess_cfg.get("clips", True)
     rec = SessionRecorder(folder=args.data, clips=clips, memory_only=args.no_save, warn=warn)
+    if profile is None and speaker is not None and not getattr(args, "no_profile", False):
+        profile = stored_profile(rec.store, speaker)
+        if profile is not None:
+            profile_path = "(stored with the speaker)"
+            print(f"speaker {speaker}: judging with the profile stored in the record "
+                  f"(updated {profile.updated}; --no-profile to judge without it)", file=sys.stderr)
+    judged_set = profile.map_set(ts) if profile is not None else ts
     voice_group = args.voice_group or (profile.voice_group if profile is not None else None)
     seed = args.seed
     if seed is None:
@@ -150,6 +159,22 @@ def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
                            clip_post_s=sess_cfg.get("clip_post_ms", 150.0) / 1e3)
     # the seeds actually used by shuffled blocks, for the record
     return session, rec, {"settings": settings, "session_id": sid, "drill": drill, "target_set": judged_set}
+
+
+def stored_profile(store, speaker_id: str):
+    """The speaker profile saved with ``speaker_id`` in the record, or ``None``."""
+    import tempfile
+    from pathlib import Path
+
+    from livevowel.profile import load_profile
+
+    row = store.speaker(speaker_id)
+    if row is None or not row.get("profile_json"):
+        return None
+    with tempfile.TemporaryDirectory() as tmp:
+        p = Path(tmp) / "profile.yaml"
+        p.write_text(row["profile_json"], encoding="utf-8")   # JSON is YAML
+        return load_profile(p)
 
 
 def run_drill(args: argparse.Namespace) -> int:
