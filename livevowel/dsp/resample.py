@@ -172,6 +172,10 @@ class StreamResampler:
     def _compute_groups(self, n_groups: int) -> np.ndarray:
         if n_groups <= 0:
             return np.zeros(0)
+        step = max(1, 4096 // self.group)         # bounds the (outputs, taps) work array
+        if n_groups > step:
+            return np.concatenate([self._compute_groups(min(step, n_groups - g))
+                                   for g in range(0, n_groups, step)])
         filt = self._filt
         q = filt.taps.shape[1]
         # all outputs of the groups at once: each output is the same dot

@@ -206,8 +206,12 @@ def viterbi_segments(cost: np.ndarray, sf: np.ndarray, segment_start: np.ndarray
             continue
         acc = cost[idx[0]].copy()
         back = np.zeros((len(idx), s), dtype=np.int64)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            logf = np.log(sf[idx])                # (len, S, 3); NaN where missing
+        logf = np.where(np.isfinite(logf), logf, np.nan)
         for j in range(1, len(idx)):
-            tr = transition_costs(sf[idx[j - 1]], sf[idx[j]], costs)
+            d = np.abs(logf[j][None, :, :] - logf[j - 1][:, None, :])
+            tr = costs.w_trans * np.where(np.isnan(d), 0.0, d).sum(axis=2)   # = transition_costs
             tot = acc[:, None] + tr              # impossible states stay inf
             back[j] = np.argmin(tot, axis=0)
             acc = tot[back[j], np.arange(s)] + cost[idx[j]]
