@@ -117,7 +117,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "skip_cost": Key(1.5, "tracking: cost weight of leaving a strong candidate unassigned", min=0, max=100),
     },
     "live": {
-        "block_ms": Key(10.0, "audio block (device callback) length in milliseconds", min=2, max=100),
+        "block_ms": Key(5.0, "audio block (device callback) length in milliseconds", min=2, max=100),
         "queue_size": Key(1000, "result frames held for the display; the oldest are dropped beyond this",
                           kind=int, min=10, max=100000),
         "input_queue_s": Key(2.0, "audio held between the device and the analysis, seconds", min=0.1, max=30),

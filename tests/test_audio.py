@@ -319,7 +319,7 @@ def test_latency_budget_lists_each_stage():
     src = open_source("demo", pace=0)
     pipe = LivePipeline(src, settings=MALE)
     b = pipe.latency_budget(consumer_poll_s=0.02)
-    assert b["block"] == pytest.approx(0.010) and b["queue"] == 0.02
+    assert b["block"] == pytest.approx(0.005) and b["queue"] == 0.02
     for stage in ("resampler", "window", "smoother"):
         assert stage in b and b[stage] >= 0
     assert "total" not in b
@@ -353,3 +353,62 @@ def test_short_soak_keeps_memory_flat_and_drops_nothing(tmp_path):
     h = pipe.health()
     assert h.dropped == 0 and h.dropped_blocks == 0 and n == pipe.frames_out
     assert n == pytest.approx(600, abs=5)
+
+
+def test_faster_than_real_time_waits_for_a_busy_consumer(tmp_path):
+    # pace 4 (0.6 s of audio in 0.15 s) while the consumer reports a backlog for
+    # its first 0.5 s: the source waits instead of outrunning it, and loses nothing.
+    sf.write(str(tmp_path / "s.wav"), np.zeros(int(0.6 * RATE)), RATE)
+
+    class Busy(Collect):
+        def __init__(self):
+            super().__init__()
+            self.until = time.monotonic() + 0.5
+
+        def backlog_s(self):
+            return 1.0 if time.monotonic() < self.until else 0.0
+
+    src = PacedFileSource(tmp_path / "s.wav", pace=4.0)
+    sink = Busy()
+    t0 = time.monotonic()
+    src.start(sink)
+    _wait(src)
+    assert time.monotonic() - t0 >= 0.5
+    assert len(sink.blocks) == int(0.6 * RATE) // src.blocksize
+    assert sink.blocks[0].received_s >= sink.until
+
+
+def test_pause_stops_analysis_but_not_the_input_measures(tmp_path):
+    _vowel_file(tmp_path / "a.wav", PB_A, seconds=0.8)
+    pipe = LivePipeline(PacedFileSource(tmp_path / "a.wav", pace=0), settings=MALE, live=NO_FLOOR)
+    pipe.pause()
+    track = _run(pipe)
+    h = pipe.health()
+    assert len(track) == 0 and h.seconds == pytest.approx(1.3, abs=0.011) and h.level_db < -100
+    assert h.noise_floor_db <= -100
+
+
+def test_no_input_message_names_what_portaudio_sees():
+    from livevowel.audio.devices import no_input_message
+
+    class FakePortAudio:  # stands in for the sounddevice module's device list
+        PortAudioError = RuntimeError
+
+        @staticmethod
+        def query_devices():
+            return [{"name": "HDMI out", "max_input_channels": 0, "max_output_channels": 2}]
+
+    msg = no_input_message(FakePortAudio)
+    assert "HDMI out (0 in, 2 out)" in msg and "--source file:PATH" in msg and "--source demo" in msg
+
+
+def test_a_source_that_cannot_start_leaves_no_recording(tmp_path):
+    class Broken(PacedFileSource):
+        def start(self, sink):
+            raise UserError("cannot open the device")
+
+    _vowel_file(tmp_path / "a.wav", PB_A, seconds=0.2)
+    pipe = LivePipeline(Broken(tmp_path / "a.wav"), settings=MALE, record_to=tmp_path / "rec.wav")
+    with pytest.raises(UserError):
+        pipe.start()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.wav"]

@@ -38,7 +38,7 @@ class MicrophoneSource(Source):
         Sample rate in Hz; default the device's own rate (44.1 or 48 kHz on
         most hardware; the engine resamples).
     block_s : float, keyword-only
-        Block (callback) length in seconds, default 0.010.
+        Block (callback) length in seconds, default 0.005.
     latency : str or float, keyword-only
         PortAudio latency hint ("low", "high" or seconds), default "low".
     lost_after_s : float, keyword-only
@@ -58,7 +58,7 @@ class MicrophoneSource(Source):
     live = True
 
     def __init__(self, device: "int | str | None" = None, channel: int | None = None, *,
-                 rate_hz: float | None = None, block_s: float = 0.010, latency: "str | float" = "low",
+                 rate_hz: float | None = None, block_s: float = 0.005, latency: "str | float" = "low",
                  lost_after_s: float = 1.0, retry_s: float = 2.0, startup_s: float = 5.0) -> None:
         self._sd = import_sounddevice()
         inputs = list_input_devices(self._sd)

@@ -86,7 +86,7 @@ def demo_schedule_provider() -> Callable[[], object]:
 
 
 def open_source(spec: str, *, device: "int | str | None" = None, channel: int | None = None, pace: float = 1.0,
-                block_ms: float = 10.0, live=None, schedule=None, rate_hz: float | None = None,
+                block_ms: float = 5.0, live=None, schedule=None, rate_hz: float | None = None,
                 seed: int = 0) -> Source:
     """Make the source a spec names (not started).
 

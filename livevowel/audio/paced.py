@@ -27,7 +27,7 @@ from livevowel.audio.base import Block, Sink, Source, check_pace
 from livevowel.errors import UserError
 
 #: Default block length, seconds (the same as the microphone's).
-DEFAULT_BLOCK_S = 0.010
+DEFAULT_BLOCK_S = 0.005
 #: At pace 0, wait while the sink holds more than this much audio, seconds.
 BACKLOG_HIGH_S = 0.25
 
@@ -127,7 +127,7 @@ class PacedFileSource(_PacedSource):
     pace : float, keyword-only
         1.0 real time (default), >1 faster, 0 as fast as the sink takes it.
     block_s : float, keyword-only
-        Block length in seconds (default 0.010).
+        Block length in seconds (default 0.005).
 
     Raises
     ------
@@ -198,7 +198,7 @@ class GeneratedVoiceSource(_PacedSource):
     seed : int, keyword-only
         Seed of the synthesiser's jitter, shimmer and aspiration (deterministic).
     block_s : float, keyword-only
-        Block length in seconds (default 0.010).
+        Block length in seconds (default 0.005).
     """
 
     def __init__(self, schedule: "object | Callable[[], object]", *, rate_hz: float = 16000.0, pace: float = 1.0,

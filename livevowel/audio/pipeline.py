@@ -74,7 +74,7 @@ class LiveSettings:
         Seconds between attempts to reopen a lost device.
     """
 
-    block_ms: float = 10.0
+    block_ms: float = 5.0
     queue_size: int = 1000
     input_queue_s: float = 2.0
     noise_floor_s: float = 1.0
@@ -152,6 +152,7 @@ class LivePipeline(Sink):
         self.error: BaseException | None = None
         self._record_to = record_to
         self.recorder: WavRecorder | None = None
+        self._discard_recording = False
         #: Engine settings in use (voicing floor raised once the noise floor is known).
         self.analysis_settings = self.settings
         self._floor_settled = self.live.noise_margin_db is None
@@ -192,6 +193,7 @@ class LivePipeline(Sink):
         try:
             self.source.start(self)
         except BaseException:
+            self._discard_recording = True      # nothing was captured: leave no empty file behind
             self._inq.append(("end", ""))
             self._wake.set()
             self._worker.join()
@@ -309,7 +311,10 @@ class LivePipeline(Sink):
                 self.error = exc
             self._meter.finish()
             if self.recorder is not None:
-                self.recorder.close()
+                if self._discard_recording:
+                    self.recorder.abort()
+                else:
+                    self.recorder.close()
             self._state = "stopped"
 
     def _process(self, blk: Block) -> None:
