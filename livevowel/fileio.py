@@ -17,10 +17,12 @@ from livevowel.errors import UserError
 
 @contextlib.contextmanager
 def atomic_writer(path: "str | os.PathLike", *, mode: str = "w", encoding: str | None = "utf-8",
-                  newline: str | None = None) -> Iterator[IO]:
+                  newline: str | None = None, permissions: int | None = None) -> Iterator[IO]:
     """Open a temporary file beside ``path``; rename it into place on success.
 
     On any exception the temporary file is removed and ``path`` is untouched.
+    The file gets ``permissions`` (e.g. ``0o600`` for private clips), by
+    default what an ordinary ``open()`` would give under the current umask.
     """
     path = Path(path)
     folder = path.parent if str(path.parent) else Path(".")
@@ -32,7 +34,10 @@ def atomic_writer(path: "str | os.PathLike", *, mode: str = "w", encoding: str |
         fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
     except OSError as exc:
         raise UserError(f"{path}: cannot write here ({exc.strerror}); choose another folder") from None
+    if permissions is None:
+        permissions = 0o666 & ~_umask()
     try:
+        os.chmod(tmp, permissions)
         with os.fdopen(fd, mode, encoding=encoding, newline=newline) as fh:
             yield fh
             fh.flush()
@@ -42,6 +47,13 @@ def atomic_writer(path: "str | os.PathLike", *, mode: str = "w", encoding: str |
         with contextlib.suppress(OSError):
             os.unlink(tmp)
         raise
+
+
+def _umask() -> int:
+    """The process umask (read by setting and restoring it)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
 
 
 def write_text_atomic(path: "str | os.PathLike", text: str) -> None:

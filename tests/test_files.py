@@ -61,3 +61,18 @@ def test_atomic_writer_keeps_old_file_on_error(tmp_path):
 def test_atomic_writer_missing_folder_is_a_user_error(tmp_path):
     with pytest.raises(UserError, match="does not exist"):
         write_text_atomic(tmp_path / "no" / "out.txt", "x")
+
+
+def test_atomic_files_get_ordinary_permissions(tmp_path):
+    import os
+    import stat
+
+    old = os.umask(0o022)
+    try:
+        write_text_atomic(tmp_path / "t.csv", "x\n")
+        with atomic_writer(tmp_path / "clip.wav", mode="wb", permissions=0o600) as fh:
+            fh.write(b"\0")
+    finally:
+        os.umask(old)
+    assert stat.S_IMODE((tmp_path / "t.csv").stat().st_mode) == 0o644  # what open() gives under umask 022
+    assert stat.S_IMODE((tmp_path / "clip.wav").stat().st_mode) == 0o600
