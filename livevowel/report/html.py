@@ -59,7 +59,7 @@ tr.hit td.res { color: #00795A; font-weight: 600; }
 tr.miss td.res { color: #B34E00; font-weight: 600; }
 td.res .mk { display: inline-block; width: 1.1em; }
 .attempts td { padding: 2px 7px; font-size: 12.5px; }
-audio { height: 28px; width: 190px; vertical-align: middle; }
+audio { height: 28px; width: 150px; vertical-align: middle; }
 .clipname { display: none; font-size: 11px; color: var(--muted); }
 .flags { color: var(--muted); font-size: 12px; }
 .settings { font-size: 12px; color: var(--muted); columns: 2; column-gap: 28px; margin: 4px 0; }
