@@ -137,7 +137,7 @@ def run(args: argparse.Namespace) -> int:
     analysis_values = settings.values.get("analysis")
     jobs = args.jobs or min(len(files), os.cpu_count() or 1)
     progress = Progress(len(files), "reviewing", quiet=args.quiet)
-    results, problems = [], 0
+    csv_rows, problems = [], 0
 
     def handle(an) -> None:
         nonlocal problems
@@ -168,8 +168,14 @@ def run(args: argparse.Namespace) -> int:
                               clip_post_s=post, seed=seed)
         for w in res.warnings:
             warn(f"{an.path}: {w}")
-        results.append((an, res, rec))
         _report(args, an, res, rec)
+        if args.csv:
+            from livevowel.cli.export import rows_for_csv
+
+            for r in rows_for_csv(rec.store, res.session_id):
+                r["recording"] = an.path
+                csv_rows.append(r)
+        rec.close()   # one connection at a time, however many recordings
 
     if jobs <= 1 or len(files) == 1:
         for f in files:
@@ -185,9 +191,7 @@ def run(args: argparse.Namespace) -> int:
                 progress.step(f.name)
 
     if args.csv:
-        _write_csv(args.csv, results)
-    for _, _, rec in results:
-        rec.close()
+        _write_csv(args.csv, csv_rows)
     return 1 if problems else 0
 
 
@@ -213,10 +217,10 @@ def _report(args, an, res, rec) -> None:
     print(flush=True)
 
 
-def _write_csv(target: str, results) -> None:
+def _write_csv(target: str, rows) -> None:
     import csv
 
-    from livevowel.cli.export import CSV_COLUMNS, rows_for_csv
+    from livevowel.cli.export import CSV_COLUMNS
     from livevowel.fileio import atomic_writer
 
     cols = ["recording"] + list(CSV_COLUMNS)
@@ -231,15 +235,12 @@ def _write_csv(target: str, results) -> None:
     def write(fh) -> None:
         w = csv.writer(fh, lineterminator="\n")
         w.writerow(cols)
-        for an, res, rec in results:
-            for r in rows_for_csv(rec.store, res.session_id):
-                r["recording"] = an.path
-                w.writerow([cell(r.get(c)) for c in cols])
+        for r in rows:
+            w.writerow([cell(r.get(c)) for c in cols])
 
-    n = sum(len(res.rows) for _, res, _ in results)
     if target == "-":
         write(sys.stdout)
     else:
         with atomic_writer(target, newline="") as fh:
             write(fh)
-        print(f"{n} attempts written to {target}", file=sys.stderr)
+        print(f"{len(rows)} attempts written to {target}", file=sys.stderr)
