@@ -8,6 +8,7 @@ of white noise hold no speech at all.
 """
 
 import contextlib
+import re
 import csv
 import io
 
@@ -192,3 +193,17 @@ def test_bad_options(files, tmp_path):
     assert rc == 2 and "zzz" in err
     rc, _, err = _run(["review", str(tmp_path / "missing.wav"), "--targets", "gae-men", "--no-store"])
     assert rc == 1 and "no such file" in err
+
+
+def test_a_reviewed_session_makes_a_report(files, reviewed, tmp_path):
+    from livevowel.report import build_session_report
+
+    s = Store.open(reviewed["data"])
+    res = build_session_report(s, 1, tmp_path / "rep")
+    text = res.html.read_text(encoding="utf-8")
+    assert "reviewed from a recording" in text and "recording take.wav" in text
+    assert str(files["base"]) not in text                    # the recording's folder is not shown
+    assert res.clip_mode == "inline" and res.clips == len(SAID)
+    summ = s.summary(1)
+    for t in summ.per_target:                                 # the store's own summary, cell by cell
+        assert re.search(rf'data-key="{t.key}">.*?class="n trials">{t.trials}<.*?class="n hits">{t.hits}<', text)

@@ -24,7 +24,7 @@ from typing import Sequence
 from livevowel import __version__
 from livevowel.errors import UserError
 from livevowel.report import html as H
-from livevowel.report.data import SessionData, is_trial, per_block, per_target, result_of, trend
+from livevowel.report.data import SessionData, is_trial, per_target, result_of, trend
 from livevowel.report.figures import MARKERS, figure_png, plane_figure, trend_figure
 
 #: Largest total clip size (bytes, before base64) embedded in the HTML by ``clips="auto"``.
@@ -146,13 +146,17 @@ def _mode(mode: str | None) -> str:
     return _MODES.get(mode or "", mode or "\u2013")
 
 
-def _input(source: str | None) -> str:
+def _input(source: str | None, settings: dict | None = None) -> str:
     """The session's input for the page: a file's name only (its folders may name people)."""
     if not source:
         return "\u2013"
     kind, sep, rest = source.partition(":")
     if sep and kind == "file":
-        return f"recording {os.path.basename(rest)}"
+        rec = (settings or {}).get("recording")
+        extra = ""
+        if isinstance(rec, dict) and rec.get("duration_s") and rec.get("rate_hz"):
+            extra = f" ({float(rec['duration_s']):.1f} s, {float(rec['rate_hz']):.0f} Hz)"
+        return f"recording {os.path.basename(rest)}{extra}"
     return source
 
 
@@ -269,7 +273,7 @@ def build_session_report(store, session_id: int, out: "str | os.PathLike", *, cl
     pairs = [("speaker (pseudonym)", spk), ("session", sd.id), ("started", _when(s.get("started_utc"))),
              ("ended", _when(s.get("ended_utc")) if s.get("ended_utc") else "not recorded (stopped abruptly)"),
              ("drill", drill), ("target set", _set_label(sd)), ("mode", _mode(s.get("mode"))),
-             ("input", _input(s.get("source"))), ("livevowel (session)", s.get("app_version")),
+             ("input", _input(s.get("source"), sd.settings)), ("livevowel (session)", s.get("app_version")),
              ("voice group", (sd.speaker or {}).get("voice_group") or "\u2013")]
     if s.get("note"):
         pairs.append(("note", s["note"]))
@@ -369,7 +373,7 @@ def build_speaker_report(store, speaker_id: str, out: "str | os.PathLike", *, si
         s = sd.session
         body += [f"<h2>Session {sd.id} \u00b7 {H.esc(_when(s.get('started_utc')))} \u00b7 "
                  f"{H.esc(s.get('drill') or s.get('mode'))}</h2>",
-                 H.meta_list([("target set", _set_label(sd)), ("input", _input(s.get("source"))),
+                 H.meta_list([("target set", _set_label(sd)), ("input", _input(s.get("source"), sd.settings)),
                               ("mode", _mode(s.get("mode"))), ("livevowel", s.get("app_version"))]
                              + ([("note", s["note"])] if s.get("note") else [])),
                  _session_numbers([sd]), _events_note(sd), _tables(sd), "<h3>Attempts</h3>",
