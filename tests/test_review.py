@@ -8,9 +8,9 @@ of white noise hold no speech at all.
 """
 
 import contextlib
-import re
 import csv
 import io
+import re
 
 import numpy as np
 import pytest
