@@ -100,6 +100,32 @@ def test_listen_ctrl_c_ends_cleanly_with_files_written(tmp_path, capsys, monkeyp
     assert 0.3 < len(rec) / RATE < 3.0
 
 
+def test_listen_interrupt_signal_writes_files(tmp_path):
+    import signal
+
+    out_csv, out_wav = tmp_path / "f.csv", tmp_path / "r.wav"
+    cmd = [sys.executable, "-m", "livevowel", "listen", "--source", "demo", "--frames", str(out_csv),
+           "--record", str(out_wav)]
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    try:
+        t0 = time.monotonic()
+        while time.monotonic() - t0 < 30:          # wait until it is listening
+            if "listening" in proc.stdout.readline():
+                break
+        time.sleep(1.0)
+        proc.send_signal(signal.SIGINT)
+        out, err = proc.communicate(timeout=30)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == 0, err
+    assert "stopped:" in err
+    got = read_frames_csv(out_csv)
+    rec, rate = sf.read(str(out_wav))
+    assert len(got) > 50 and len(rec) / rate > 0.5
+    assert abs(len(rec) / rate - (got.time_s.max() + 0.0125)) < 0.1
+
+
 @pytest.mark.parametrize("argv, message", [
     (["--source", "speaker"], "unknown --source"),
     (["--source", "file:/no/such.wav"], "no such file"),

@@ -106,8 +106,8 @@ def run(args: argparse.Namespace) -> int:
     t_start = time.monotonic()
     next_plain = 0.0
     interrupted = False
-    pipeline.start()
     try:
+        pipeline.start()
         while True:
             time.sleep(TTY_UPDATE_S)
             new = pipeline.drain()
