@@ -99,8 +99,8 @@ def test_20_db_noise_costs_at_most_half_again(group, f0s):
     assert np.mean((n1 > 0.2) | (n2 > 0.2)) <= 0.02
 
 
-@pytest.mark.xfail(strict=True, reason="known limit: children's back vowels (/u/, /ɔ/: F1 and F2 close, "
-                                       "steep spectral tilt) in 20 dB white noise lose F2")
+@pytest.mark.xfail(strict=True, reason="known limit: children's /ɔ/ (F1 680, F2 1060 Hz: close, and F2 "
+                                       "weak) in 20 dB white noise: F1 and F2 merge in about 8 % of frames")
 def test_20_db_noise_children():
     c1, c2 = band("children", (250, 300, 350))
     n1, n2 = band("children", (250, 300, 350), snr_db=20.0)

@@ -38,7 +38,9 @@ __all__ = ["harmonic_powers", "dap"]
 
 #: Harmonics less than this many dB above the local noise floor count as lost in noise.
 NOISE_DROP_DB = 8.0
-#: Level assumed for such harmonics, dB re the strongest harmonic of the frame.
+#: Level assumed for such harmonics, dB below the local noise floor ...
+LOST_BELOW_NOISE_DB = 10.0
+#: ... but not below this, dB re the strongest harmonic of the frame.
 FLOOR_DB = -50.0
 #: Their weight in the fit (and the least weight any harmonic gets).
 LOST_WEIGHT = 0.3
@@ -143,11 +145,20 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
         snr_db = np.nan_to_num(snr_db, nan=0.0)
         clean = np.maximum(p0 - noise, 0.1 * p0)
         # noise-dominated harmonics: the voice there is somewhere below the
-        # noise; assume it is deep (FLOOR_DB below the strongest harmonic) and
-        # give it little weight, rather than fitting the noise as a resonance
+        # noise; assume it is LOST_BELOW_NOISE_DB under the local noise floor
+        # (but not below FLOOR_DB re the strongest harmonic) and give it little
+        # weight, rather than fitting the noise as a resonance
         top = np.max(np.where(k[None, :] <= counts[:, None], clean, 0.0), axis=1, keepdims=True)
         lost = snr_db < NOISE_DROP_DB
-        p0 = np.where(lost, np.maximum(p0 - noise, top * 10.0 ** (FLOOR_DB / 10.0)), clean)
+        guess = np.maximum(noise * 10.0 ** (-LOST_BELOW_NOISE_DB / 10.0), top * 10.0 ** (FLOOR_DB / 10.0))
+        # only the run of lost harmonics above the last reliable one (the band
+        # where the voice has sunk into the noise) gets the guess; a lost
+        # harmonic among reliable ones keeps its noise-subtracted power
+        kk = np.broadcast_to(k[None, :], lost.shape)
+        last_ok = np.max(np.where(~lost & (kk <= counts[:, None]), kk, 0), axis=1, keepdims=True)
+        sunk = lost & (kk > last_ok)
+        p0 = np.where(sunk, np.minimum(p0, guess),
+                      np.where(lost, np.maximum(p0 - noise, top * 10.0 ** (FLOOR_DB / 10.0)), clean))
         snr_w = np.where(lost, LOST_WEIGHT, np.clip(snr_db / 12.0, LOST_WEIGHT, 1.0))
     weight = ((k[None, :] <= counts[:, None]) & (p0 > 0)).astype(np.float64) * snr_w
     power = np.where(weight > 0, p0, 1.0)

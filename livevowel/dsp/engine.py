@@ -65,10 +65,10 @@ prediction (Magi et al. 2009; Alku et al. 2013) is available as
 ``method="weighted"`` but did worse than DAP on the project's synthetic
 vowels with the Gaussian-tapered frames used here.
 
-Known limits: children's back vowels (F1 and F2 close, little energy above
-1.5 kHz) in 20 dB white noise lose F2 (an ``xfail`` test records it); F1
-between two widely spaced harmonics is still biased a few per cent towards
-the stronger one.
+Known limits: a child's /ɔ/ (F1 and F2 close, F2 weak) in 20 dB white
+noise often merges F1 and F2 (an ``xfail`` test records it); F1 midway
+between two widely spaced harmonics (e.g. 470 Hz at F0 = 300 Hz) is still
+pulled up to ~20 % towards the stronger one.
 """
 
 from __future__ import annotations
@@ -397,6 +397,16 @@ class _Plan:
     min_hz: float = 90.0
 
     @property
+    def max_hz(self) -> np.ndarray:
+        """Highest plausible F1, F2, F3 (Hz): 0.25, 0.55 and 0.8 of the ceiling.
+
+        Above every Peterson & Barney (1952) group mean (from memory; e.g.
+        women's /i/ F2 2790 Hz < 0.55 x 5500 Hz), so only spurious readings
+        are ruled out.
+        """
+        return np.array([0.25, 0.55, 0.8]) * self.ceiling_hz
+
+    @property
     def need_after(self) -> int:
         """Samples needed past a frame's start: window plus pitch extension."""
         return self.n + self.ext
@@ -649,7 +659,7 @@ def _offline_track(feat: dict, voiced: np.ndarray, times: np.ndarray, plan: _Pla
     hold_frames = int(math.floor(s.hold_s / (plan.hop / plan.rate_hz) + 1e-9))
     if len(idx):
         cost, sf, sb = local_costs(feat["cand_f"][idx], feat["cand_b"][idx], states=states, ref_hz=plan.ref_hz,
-                                   f0_hz=f0[idx], costs=costs)
+                                   f0_hz=f0[idx], costs=costs, max_hz=plan.max_hz)
         gaps = np.diff(idx) - 1
         seg_start = np.concatenate([[True], gaps > hold_frames])
         best = viterbi_segments(cost, sf, seg_start, costs)
@@ -663,13 +673,12 @@ def _offline_track(feat: dict, voiced: np.ndarray, times: np.ndarray, plan: _Pla
     conf = _confidence(sm, raw_b, raw_f, feat["aper"], feat["level_db"], s.voicing_floor_db)
     out_f = sm.copy()
     out_b = raw_b.copy()
-    # hold short gaps
+    # hold short gaps (unvoiced frames, or voiced ones with no formant reading),
+    # as the causal path does
     last = -10**9
     for i in range(n):
         if np.isfinite(sm[i, 0]):
             last = i
-            continue
-        if voiced[i]:
             continue
         if last >= 0 and i - last <= hold_frames:
             out_f[i] = out_f[last]
@@ -920,7 +929,7 @@ class StreamingAnalyzer:
         if voiced and cand is not None:
             cost, sf, sb = local_costs(cand["cand_f"][None, :], cand["cand_b"][None, :],
                                        states=state_table(plan.order // 2), ref_hz=plan.ref_hz,
-                                       f0_hz=np.array([f0]), costs=self._costs)
+                                       f0_hz=np.array([f0]), costs=self._costs, max_hz=plan.max_hz)
             rec.update(cost=cost[0], sf=sf[0], sb=sb[0])
         return rec
 

@@ -111,7 +111,8 @@ def _harmonic_likeness(f: np.ndarray, b: np.ndarray, f0: np.ndarray, bw_scale: f
 
 
 def local_costs(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz: np.ndarray,
-                f0_hz: np.ndarray, costs: TrackerCosts) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                f0_hz: np.ndarray, costs: TrackerCosts,
+                max_hz: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Local cost of every state in every frame.
 
     Parameters
@@ -125,6 +126,8 @@ def local_costs(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz:
     f0_hz : ndarray, shape (n,)
         F0 in Hz (NaN when unknown: no harmonic cost).
     costs : TrackerCosts
+    max_hz : ndarray, shape (3,), optional
+        Highest plausible F1, F2, F3 in Hz; states above are impossible.
 
     Returns
     -------
@@ -143,6 +146,9 @@ def local_costs(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz:
     per = costs.w_freq * c_freq + costs.w_bw * c_bw + costs.w_harm * c_harm
     # F1 and F2 must exist; F3 may be missing only in the "pair" states.
     need = np.isfinite(sf[:, :, 0]) & np.isfinite(sf[:, :, 1]) & (np.isfinite(sf[:, :, 2]) | miss3[None, :])
+    if max_hz is not None:
+        with np.errstate(invalid="ignore"):
+            need &= ~np.any(sf > np.asarray(max_hz, dtype=float)[None, None, :], axis=2)
     per = np.where(np.isfinite(per), per, 0.0)
     total = per.sum(axis=2) + costs.miss_cost * miss3[None, :]
     if costs.w_skip:
