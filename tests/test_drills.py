@@ -7,6 +7,7 @@ sequences below follow from those rules by hand.
 """
 
 import copy
+from pathlib import Path
 
 import pytest
 import yaml
@@ -283,3 +284,21 @@ def test_coach_mode_waits_for_next_and_can_repeat_skip_override():
     assert run.done
     ends = [e["detail"] for e in run.pop_events() if e["kind"] == "block_end"]
     assert ends[0]["criterion_met"] and ends[1]["skipped"]
+
+
+def test_target_set_path_relative_to_the_drill_file(tmp_path):
+    import shutil
+
+    from livevowel.targets import load_target_set, shipped_sets
+
+    (tmp_path / "sets").mkdir()
+    shutil.copy(shipped_sets()["gae-men"], tmp_path / "sets" / "mine.yaml")
+    d = copy.deepcopy(BASE)
+    d["target_set"] = "sets/mine.yaml"
+    d["blocks"][0]["items"][1]["target"] = "KIT"          # a lexical-set keyword works as well as the id
+    p = tmp_path / "drill.yaml"
+    p.write_text(yaml.safe_dump(d))
+    dr = load_drill(p)
+    ref = resolve_target_set_ref(dr)
+    assert Path(ref) == tmp_path / "sets" / "mine.yaml"
+    check_targets(dr, load_target_set(ref))
