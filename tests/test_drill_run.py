@@ -13,10 +13,8 @@ import contextlib
 import io
 import os
 import signal
-import sqlite3
 import subprocess
 import sys
-import time
 from pathlib import Path
 
 import numpy as np

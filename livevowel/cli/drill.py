@@ -228,13 +228,11 @@ def print_summary(summary, *, session, recorder, session_id: int, interrupted: b
     print(f"\nsession {session_id} {state}")
     print(summary.format())
     for st in run.block_states:
-        c = st.counted()
         crit = "met" if st.criterion_met else "not met"
         adv = st.block.advance.describe()
         size = f"{st.hit_size_sd:.2f} SD" if st.hit_size_sd is not None else "target's own"
         print(f"block {st.index + 1} {st.block.id}: advance rule ({adv}) {crit}; hit size {size}, "
               f"hold {st.hold_s:.2f} s" + (f", seed {st.seed}" if st.seed is not None else ""))
-        del c
     if recorder.in_memory:
         print(f"NOT SAVED: {recorder.warning}", file=sys.stderr)
     else:

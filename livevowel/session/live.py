@@ -19,7 +19,7 @@ from __future__ import annotations
 
 from typing import Any, Sequence
 
-from livevowel.session.runner import DrillSession, Outcome, feed
+from livevowel.session.runner import DrillSession, Outcome
 
 
 class DrillFeed:
