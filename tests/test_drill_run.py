@@ -379,3 +379,29 @@ def test_profile_is_stored_with_the_speaker_and_used_again(tmp_path, capsys, rec
     assert [s.attempts(i)[0]["speaker_space"] for i in (1, 2, 3)] == [1, 1, 0]
     assert s.session(2)["target_set"] == "gae-men@S15" and s.session(3)["target_set"] == "gae-men"
     assert s.attempts(1)[0]["closeness"] == pytest.approx(s.attempts(2)[0]["closeness"])
+
+
+def test_coach_led_on_the_screen_moves_on_with_the_arrow_key(tmp_path, recorded, monkeypatch, capsys):
+    """The coach presses → after each attempt (posted as a key event when the attempt is saved)."""
+    import pygame
+
+    from livevowel.session.runner import DrillSession
+
+    orig = DrillSession.__init__
+
+    def init(self, *a, **kw):
+        orig(self, *a, **kw)
+        self.on_outcome = lambda oc: pygame.event.post(pygame.event.Event(pygame.KEYDOWN, key=pygame.K_RIGHT,
+                                                                          mod=0, unicode=""))
+
+    monkeypatch.setattr(DrillSession, "__init__", init)
+    rc = main(["practice", "--drill", str(recorded["drill"]), "--coach", "--headless", "--screenshot",
+               str(tmp_path / "coach.png"), "--source", f"file:{recorded['short']}", "--pace", "0",
+               "--data", str(tmp_path / "d"), "--no-tone", "--size", "640x400", "--quiet"])
+    assert rc == 0
+    s = Store.open(tmp_path / "d")
+    rows = s.attempts(1)
+    assert s.session(1)["mode"] == "coach"
+    # without the key both attempts would be trials of the first prompt (FLEECE), the second a miss
+    assert [(r["prompt"], r["target_id"], r["trial"], r["auto_hit"]) for r in rows] == [
+        ("beat", "fleece", 1, 1), ("bit", "kit", 2, 1)]
