@@ -490,7 +490,7 @@ def relative_level(level_db: np.ndarray, s: AnalysisSettings, peak_db: float | N
 
 
 def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np.ndarray, *,
-              pitch: bool) -> dict[str, np.ndarray]:
+              pitch: bool, formants: bool = True) -> dict[str, np.ndarray]:
     """Measures of frames ``ks`` from samples ``x`` whose first element is sample ``base``.
 
     Samples outside ``x`` read as zero. Returns level_db, f0_hz, aper (when
@@ -517,6 +517,8 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
     if pitch:
         out["level_db"] = frame_level_db(formant_rows[:, 1:])
         out["f0_hz"], out["aper"] = _pitch(rows[:, 1:], plan, s)
+    if not formants:
+        return out
     cond = framing.condition_frames(formant_rows, coef=plan.coef, window=plan.taper)
     if s.method in ("dap", "hybrid"):
         if "f0_hz" not in out:
@@ -700,6 +702,7 @@ class _ChainStream:
         self.plan = plan
         self.s = s
         self.pitch = pitch
+        self.formants = True     # False: F0 and level only (primary chain of a settled auto voice)
         self.rs = StreamResampler(input_rate, plan.rate_hz)
         self.buf = np.zeros(0)
         self.base = 0            # absolute analysis-rate index of buf[0]
@@ -722,7 +725,8 @@ class _ChainStream:
                     break
             elif start + p.need_after > self.n_a:
                 break
-            f = _features(p, self.s, self.buf, self.base, np.array([self.k]), pitch=self.pitch)
+            f = _features(p, self.s, self.buf, self.base, np.array([self.k]), pitch=self.pitch,
+                          formants=self.formants)
             item = {key: v[0] for key, v in f.items()}
             item["k"] = self.k
             out.append(item)
@@ -942,6 +946,7 @@ class StreamingAnalyzer:
             if v not in (self.primary, self.active):
                 del self.chains[v]
                 del self._pending[v]
+        self.chains[self.primary].formants = self.active == self.primary
 
     def _finalize(self, rec: dict, nxt: dict | None) -> Frame:
         s = self.settings
