@@ -152,8 +152,10 @@ def test_listen_command_through_the_virtual_microphone(tmp_path):
     x = synthesize_vowel(formants_hz=PB_A, f0_hz=120.0, duration_s=1.5, rate_hz=RATE)
     sf.write(str(tmp_path / "a.wav"), x, RATE)
     out_csv, out_wav = tmp_path / "f.csv", tmp_path / "r.wav"
+    cfg = tmp_path / "mine.yaml"   # a fixed voice halves the engine's work on a shared test machine
+    cfg.write_text("analysis:\n  voice: adult_male\n", encoding="utf-8")
     cmd = [sys.executable, "-m", "livevowel", "listen", "--device", vmic.DEVICE, "--seconds", "5",
-           "--frames", str(out_csv), "--record", str(out_wav)]
+           "--frames", str(out_csv), "--record", str(out_wav), "--config", str(cfg)]
     proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=dict(os.environ))
     try:
         first = []

@@ -105,14 +105,10 @@ def _switch_latencies(seen, switch_t, targets, *, t0):
     return lat_wall, lat_frame
 
 
-def _latency_run(folder: Path, *, quick: bool, out: Callable[[str], None]) -> dict:
+def _wall_run(path, switch_t, targets, analysis, live):
+    """Play the switch file at pace 1.0 and time each switch on the wall clock."""
     from livevowel.audio.paced import PacedFileSource
-    from livevowel.audio.pipeline import LivePipeline, percentiles
-
-    analysis, live = _settings()
-    rate = 44100
-    switches = 4 if quick else 10
-    path, switch_t, targets = _switch_file(folder, rate=rate, switches=switches, dwell_s=0.6)
+    from livevowel.audio.pipeline import LivePipeline
 
     class Timed(LivePipeline):
         t0: float | None = None
@@ -122,13 +118,6 @@ def _latency_run(folder: Path, *, quick: bool, out: Callable[[str], None]) -> di
                 self.t0 = block.received_s - (block.start_time_s + block.duration_s) / self.source.pace
             super().on_block(block)
 
-    # 1) pace 0: frames only (the same frames at any pace and block split), so the
-    #    figure does not depend on how busy the machine is.
-    p0 = LivePipeline(PacedFileSource(path, pace=0, block_s=live.block_ms / 1000), settings=analysis, live=live)
-    p0.start()
-    p0.wait()
-    _, lat_frame = _switch_latencies([(f, 0.0) for f in p0.drain()], switch_t, targets, t0=None)
-    # 2) pace 1.0: wall clock, as live input
     pipe = Timed(PacedFileSource(path, pace=1.0, block_s=live.block_ms / 1000), settings=analysis, live=live)
     poll_s = 0.002
     seen: list = []
@@ -140,6 +129,27 @@ def _latency_run(folder: Path, *, quick: bool, out: Callable[[str], None]) -> di
     now = time.monotonic()
     seen.extend((f, now) for f in pipe.drain())
     lat_wall, _ = _switch_latencies(seen, switch_t, targets, t0=pipe.t0)
+    return pipe, lat_wall, poll_s
+
+
+def _latency_run(folder: Path, *, quick: bool, out: Callable[[str], None]) -> dict:
+    from livevowel.audio.paced import PacedFileSource
+    from livevowel.audio.pipeline import LivePipeline, percentiles
+
+    analysis, live = _settings()
+    rate = 44100
+    switches = 4 if quick else 10
+    path, switch_t, targets = _switch_file(folder, rate=rate, switches=switches, dwell_s=0.6)
+
+    # 1) pace 0: frames only (the same frames at any pace and block split), so the
+    #    figure does not depend on how busy the machine is.
+    p0 = LivePipeline(PacedFileSource(path, pace=0, block_s=live.block_ms / 1000), settings=analysis, live=live,
+                      queue_size=100_000)
+    p0.start()
+    p0.wait()
+    _, lat_frame = _switch_latencies([(f, 0.0) for f in p0.drain()], switch_t, targets, t0=None)
+    # 2) pace 1.0: wall clock, as live input
+    pipe, lat_wall, poll_s = _wall_run(path, switch_t, targets, analysis, live)
     lat_wall = np.array(lat_wall)
     budget = pipe.latency_budget(consumer_poll_s=poll_s)
     total = sum(budget.values())
@@ -165,9 +175,19 @@ def _latency_run(folder: Path, *, quick: bool, out: Callable[[str], None]) -> di
     h = pipe.health()
     out(f"  analysis load {h.analysis_load:.2f} of real time (above 1 the worker falls behind and the wall figure grows); "
         f"dropped blocks {h.dropped_blocks}")
+    extra = {}
     if h.dropped_blocks or h.analysis_load > 0.8:
-        out("  WARNING: this machine did not keep up with real time during the run (other work running?); "
-            "the wall-clock figure is not valid (the frame-timing one is) -- run again on a quieter machine")
+        out(f"  WARNING: analysis took {h.analysis_load:.2f} s per second of audio (the engine's own cost plus "
+            "whatever else runs here); near or above 1 the worker falls behind, so the wall-clock figure measures "
+            "that backlog, not the path (the frame-timing figure stands)")
+        lighter = replace(analysis, voice="adult_male")
+        p2, lw2, _ = _wall_run(path, switch_t, targets, lighter, live)
+        lw2 = np.array(lw2)
+        h2 = p2.health()
+        out(f"  wall clock again with voice=adult_male (one voice, less work): median {np.median(lw2) * 1e3:6.1f} ms   "
+            f"max {np.max(lw2) * 1e3:6.1f} ms   (analysis load {h2.analysis_load:.2f}, dropped blocks {h2.dropped_blocks})")
+        extra = {"e2e_male_median_ms": float(np.median(lw2)) * 1e3, "e2e_male_max_ms": float(np.max(lw2)) * 1e3,
+                 "analysis_load_male": h2.analysis_load}
     block_s = live.block_ms / 1000
     cb = percentiles(pipe.on_block_durations, pipe.on_block_count)
     out(f"callback (sink on_block, paced source): median {cb['median_ms']:.3f} ms  p99 {cb['p99_ms']:.3f} ms  "
@@ -180,7 +200,7 @@ def _latency_run(folder: Path, *, quick: bool, out: Callable[[str], None]) -> di
             "e2e_from_frames_median_ms": float(np.median(algo)) * 1e3,
             "e2e_frame_offsets_ms": [float(v) * 1e3 for v in lat_frame], "analysis_load": h.analysis_load,
             "callback_paced": cb, "callback_goal_ms": CALLBACK_SHARE * block_s * 1e3,
-            "dropped": h.dropped, "dropped_blocks": h.dropped_blocks}
+            "dropped": h.dropped, "dropped_blocks": h.dropped_blocks, **extra}
 
 
 def _mic_callbacks(seconds: float, out: Callable[[str], None]) -> dict:
