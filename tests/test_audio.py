@@ -16,7 +16,6 @@ import math
 import threading
 import time
 import tracemalloc
-from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -24,7 +23,7 @@ import soundfile as sf
 
 from livevowel.audio import Block, DropOldestQueue, GeneratedVoiceSource, PacedFileSource, Sink, open_source
 from livevowel.audio.health import HealthMeter
-from livevowel.audio.options import fallback_demo_schedule, parse_spec
+from livevowel.audio.options import FALLBACK_VOWELS, fallback_demo_schedule, parse_spec
 from livevowel.audio.pipeline import LivePipeline, LiveSettings
 from livevowel.dsp.engine import AnalysisSettings, analyze
 from livevowel.dsp.synth import KlattVoice, Schedule, Segment, synthesize_vowel
@@ -176,6 +175,8 @@ def test_source_specs_and_their_errors(tmp_path):
         open_source("demo", device="1")
     demo = open_source("demo", pace=0)
     assert isinstance(demo, GeneratedVoiceSource) and demo.duration_s > 1.0
+    fallback = GeneratedVoiceSource(fallback_demo_schedule(), pace=0)   # used when livevowel.demo is absent
+    assert fallback.duration_s == pytest.approx(1.0 + 1.5 * len(FALLBACK_VOWELS))
 
 
 # --------------------------------------------------------------- health

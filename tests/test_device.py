@@ -18,7 +18,7 @@ import pytest
 
 import vmic
 from livevowel.audio.devices import InputDevice, import_sounddevice, resolve_device
-from livevowel.audio.pipeline import LivePipeline, LiveSettings
+from livevowel.audio.pipeline import LivePipeline
 from livevowel.dsp.engine import AnalysisSettings
 from livevowel.dsp.synth import synthesize_vowel
 from livevowel.dsp.types import FrameTrack
