@@ -73,3 +73,30 @@ def test_demo_command_rejects_bad_options(capsys):
     assert main(["demo", "--headless", "--screenshot", "out.jpg"]) == 2
     assert "png" in capsys.readouterr().err
     assert main(["demo", "--headless", "--pace", "-1"]) == 2
+
+
+def test_demo_without_a_screen_runs_headless_and_saves_a_picture(tmp_path):
+    import os
+    import subprocess
+    import sys
+
+    env = {k: v for k, v in os.environ.items() if k not in ("DISPLAY", "WAYLAND_DISPLAY", "SDL_VIDEODRIVER")}
+    proc = subprocess.run([sys.executable, "-m", "livevowel", "demo", "--seconds", "3"], cwd=tmp_path, env=env,
+                          capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert "no screen here" in proc.stdout
+    assert (tmp_path / "livevowel-demo.png").stat().st_size > 10_000
+    assert "pygame community" not in proc.stdout + proc.stderr
+
+
+def test_practice_without_a_screen_says_what_to_do(tmp_path):
+    import os
+    import subprocess
+    import sys
+
+    env = {k: v for k, v in os.environ.items() if k not in ("DISPLAY", "WAYLAND_DISPLAY", "SDL_VIDEODRIVER")}
+    proc = subprocess.run([sys.executable, "-m", "livevowel", "practice", "--targets", "gae-men", "--source", "demo"],
+                          cwd=tmp_path, env=env, capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 2
+    assert "Traceback" not in proc.stderr
+    assert "--headless" in proc.stderr.strip().splitlines()[-1]

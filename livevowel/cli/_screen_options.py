@@ -23,8 +23,9 @@ def add_screen_options(parser: argparse.ArgumentParser, *, pace: bool = False) -
     g.add_argument("--seconds", type=float, metavar="N", help="stop after N seconds of input")
     g.add_argument("--screenshot", metavar="FILE.png", help="save the last picture as a PNG")
     if pace:
-        g.add_argument("--pace", type=float, metavar="F", default=1.0,
-                       help="speed of the demo voice: 1 real time (default), 2 twice as fast, 0 as fast as possible")
+        g.add_argument("--pace", type=float, metavar="F",
+                       help="speed of the demo voice: 1 real time (default with a screen), 2 twice as fast, "
+                            "0 as fast as possible (default with --headless)")
 
 
 def parse_size(text: str) -> tuple[int, int]:

@@ -14,8 +14,10 @@ some hits. Everything you see -- the dot, the trail, the hold arc, the hit
 pulse, the counters and the status strip -- is measured live from the
 generated sound by the same engine that listens to a microphone.
 
-With --headless nothing is shown on screen; add --screenshot to keep the
-last picture (this is how the README picture is made)."""
+With --headless nothing is shown on screen and the voice is analysed as
+fast as the machine allows; add --screenshot to keep the last picture (this
+is how the README picture is made). On a machine with no screen the demo
+runs that way by itself and saves its last picture as livevowel-demo.png."""
 EPILOG = """\
 examples:
   livevowel demo
@@ -37,7 +39,16 @@ def run(args: argparse.Namespace) -> int:
     from livevowel.errors import UserError
     from livevowel.ui.app import run_demo
 
+    from livevowel.ui.loop import screen_available
+
     settings, options = settings_and_options(args)
+    if not args.headless and not screen_available():
+        args.headless = True
+        args.screenshot = args.screenshot or "livevowel-demo.png"
+        print("demo: no screen here (DISPLAY is not set), so the demo runs without a window "
+              f"and saves its last picture to {args.screenshot}")
+    if args.pace is None:
+        args.pace = 0.0 if args.headless else 1.0
     if args.pace < 0 or args.pace != args.pace:
         raise UserError(f"--pace must be 0 (as fast as possible) or a positive factor, got {args.pace}")
     r = run_demo(settings=settings, options=options, headless=args.headless, seconds=args.seconds,

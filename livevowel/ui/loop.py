@@ -92,10 +92,29 @@ class LoopResult:
     quit_by_user: bool = False
 
 
+def screen_available() -> bool:
+    """Whether a window can be opened here.
+
+    On Linux and other X11/Wayland systems that means DISPLAY or
+    WAYLAND_DISPLAY is set (or SDL_VIDEODRIVER names a driver explicitly);
+    macOS and Windows always have a screen in a desktop session.
+    """
+    import sys
+
+    if os.environ.get("SDL_VIDEODRIVER"):
+        return os.environ["SDL_VIDEODRIVER"] != "dummy"
+    if sys.platform.startswith(("win", "darwin")):
+        return True
+    return bool(os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY"))
+
+
 def init_display(*, headless: bool) -> None:
     """Start pygame's display (dummy driver when headless). Call before making fonts."""
     if headless:
         os.environ["SDL_VIDEODRIVER"] = "dummy"
+    elif not screen_available():
+        raise UserError("no screen to open a window on (DISPLAY is not set); run from a desktop "
+                        "session, or add --headless --screenshot FILE.png")
     import pygame
 
     pygame.display.init()
