@@ -79,13 +79,10 @@ def _cell(v) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
-    import csv
     import sys
 
-    from livevowel.fileio import atomic_writer
-    from livevowel.session.store import Store, data_dir
-
     from livevowel.errors import UserError
+    from livevowel.session.store import Store, data_dir
 
     if (args.session is None) == (args.speaker is None):
         raise UserError("name a SESSION number or --speaker ID (one of them)")
@@ -121,6 +118,19 @@ def run(args: argparse.Namespace) -> int:
             print(f"{what} written to {out} (JSON)", file=sys.stderr)
         return 0
     cols = list(CSV_COLUMNS) + (["track_json"] if args.track else [])
+    write_attempts_csv(out, rows, cols, what=f"attempts of {what}")
+    return 0
+
+
+def write_attempts_csv(target: str, rows: list, cols: list, *, what: str = "attempts") -> None:
+    """Write attempt rows as CSV to ``target`` ('-' for standard output), atomically.
+
+    Empty cells for ``None``; floats to 6 significant digits.
+    """
+    import csv
+    import sys
+
+    from livevowel.fileio import atomic_writer
 
     def write(fh) -> None:
         w = csv.writer(fh, lineterminator="\n")
@@ -128,10 +138,9 @@ def run(args: argparse.Namespace) -> int:
         for r in rows:
             w.writerow([_cell(r.get(c)) for c in cols])
 
-    if out == "-":
+    if target == "-":
         write(sys.stdout)
     else:
-        with atomic_writer(out, newline="") as fh:
+        with atomic_writer(target, newline="") as fh:
             write(fh)
-        print(f"{len(rows)} attempts of {what} written to {out}", file=sys.stderr)
-    return 0
+        print(f"{len(rows)} {what} written to {target}", file=sys.stderr)

@@ -218,29 +218,6 @@ def _report(args, an, res, rec) -> None:
 
 
 def _write_csv(target: str, rows) -> None:
-    import csv
+    from livevowel.cli.export import CSV_COLUMNS, write_attempts_csv
 
-    from livevowel.cli.export import CSV_COLUMNS
-    from livevowel.fileio import atomic_writer
-
-    cols = ["recording"] + list(CSV_COLUMNS)
-
-    def cell(v) -> str:
-        if v is None:
-            return ""
-        if isinstance(v, float):
-            return f"{v:.6g}"
-        return str(v)
-
-    def write(fh) -> None:
-        w = csv.writer(fh, lineterminator="\n")
-        w.writerow(cols)
-        for r in rows:
-            w.writerow([cell(r.get(c)) for c in cols])
-
-    if target == "-":
-        write(sys.stdout)
-    else:
-        with atomic_writer(target, newline="") as fh:
-            write(fh)
-        print(f"{len(rows)} attempts written to {target}", file=sys.stderr)
+    write_attempts_csv(target, rows, ["recording"] + list(CSV_COLUMNS))
