@@ -62,7 +62,7 @@ def write_text_atomic(path: "str | os.PathLike", text: str) -> None:
         fh.write(text)
 
 
-def write_bytes_atomic(path: "str | os.PathLike", data: bytes) -> None:
-    """Write ``data`` to ``path`` atomically."""
-    with atomic_writer(path, mode="wb") as fh:
+def write_bytes_atomic(path: "str | os.PathLike", data: bytes, *, permissions: int | None = None) -> None:
+    """Write ``data`` to ``path`` atomically (``permissions`` as in :func:`atomic_writer`)."""
+    with atomic_writer(path, mode="wb", permissions=permissions) as fh:
         fh.write(data)

@@ -137,6 +137,18 @@ def test_recorder_writes_clips_atomically_and_rows(tmp_path):
     assert s.attempts(sid)[0]["clip"] == stored["clip"]
 
 
+def test_new_data_folder_and_clips_are_private_to_their_owner(tmp_path):
+    import stat
+
+    folder = tmp_path / "record"
+    rec = st.SessionRecorder(folder=folder)
+    rec.start(speaker_id="S01", target_set="set", mode="self_paced")
+    stored = rec.attempt(row(1), samples=np.zeros(1600), rate_hz=16000)
+    rec.finish()
+    assert stat.S_IMODE(folder.stat().st_mode) == 0o700
+    assert stat.S_IMODE((folder / stored["clip"]).stat().st_mode) == 0o600
+
+
 def test_clips_can_be_turned_off(tmp_path):
     rec = st.SessionRecorder(folder=tmp_path, clips=False)
     rec.start()

@@ -293,7 +293,7 @@ class Store:
                 raise UserError(f"{folder}: no session record here yet; run a drill or practice first "
                                 "(or pass --data DIR)")
             try:
-                folder.mkdir(parents=True, exist_ok=True)
+                folder.mkdir(mode=0o700, parents=True, exist_ok=True)  # voices are personal data
             except OSError as exc:
                 raise UserError(f"{folder}: cannot create the data folder ({exc.strerror}); "
                                 "pass --data DIR with a folder you can write") from None
@@ -589,14 +589,14 @@ def clip_path(session_id: int, number: int) -> str:
 
 
 def write_clip(path: Path, samples: np.ndarray, rate_hz: float) -> None:
-    """Write a 16-bit PCM WAV clip atomically."""
+    """Write a 16-bit PCM WAV clip atomically, readable by its owner only (a voice is personal data)."""
     import soundfile as sf
 
     from livevowel.fileio import write_bytes_atomic
 
     buf = io.BytesIO()
     sf.write(buf, np.asarray(samples, dtype=np.float32), int(round(rate_hz)), format="WAV", subtype="PCM_16")
-    write_bytes_atomic(path, buf.getvalue())
+    write_bytes_atomic(path, buf.getvalue(), permissions=0o600)
 
 
 class SessionRecorder:
@@ -702,7 +702,7 @@ class SessionRecorder:
             rel = clip_path(self.session_id, int(row["number"]))
             try:
                 p = self.store.folder / rel
-                p.parent.mkdir(parents=True, exist_ok=True)
+                p.parent.mkdir(mode=0o700, parents=True, exist_ok=True)
                 write_clip(p, samples, rate_hz)
                 row["clip"] = rel
             except (OSError, UserError) as exc:
