@@ -30,9 +30,12 @@ Trans. Signal Processing* 39(2), 411-423.
 
 from __future__ import annotations
 
+import functools
+import math
+
 import numpy as np
 
-from livevowel.dsp.lpc import levinson_durbin
+from livevowel.dsp.lpc import _toeplitz_index, _toeplitz_solve
 
 __all__ = ["harmonic_powers", "dap"]
 
@@ -44,6 +47,30 @@ LOST_BELOW_NOISE_DB = 10.0
 FLOOR_DB = -50.0
 #: Their weight in the fit (and the least weight any harmonic gets).
 LOST_WEIGHT = 0.3
+
+
+_WINDOW_POWER: dict[tuple[int, bytes], np.ndarray] = {}
+
+
+def _window_power(window: np.ndarray, nfft: int) -> np.ndarray:
+    """``|W(f)|^2 / |W(0)|^2`` of a taper on ``nfft // 2 + 1`` bins (cached: the engine uses a few tapers)."""
+    key = (nfft, window.tobytes())
+    got = _WINDOW_POWER.get(key)
+    if got is None:
+        got = np.abs(np.fft.rfft(window, nfft)) ** 2
+        got = got / got[0]
+        got.setflags(write=False)
+        if len(_WINDOW_POWER) > 32:
+            _WINDOW_POWER.clear()
+        _WINDOW_POWER[key] = got
+    return got
+
+
+@functools.lru_cache(maxsize=16)
+def _bin_index(n: int) -> np.ndarray:
+    out = np.arange(n, dtype=np.float64)
+    out.setflags(write=False)
+    return out
 
 
 def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, max_hz: float,
@@ -132,17 +159,16 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
         if window is not None:
             # remove what the taper leaks into the valley from the two
             # harmonics beside it (matters at low F0, where valleys are shallow)
-            wspec = np.abs(np.fft.rfft(np.asarray(window, dtype=np.float64), nfft)) ** 2
-            wspec = wspec / wspec[0]
+            wspec = _window_power(np.asarray(window, dtype=np.float64), nfft)
             half_bins = 0.5 * np.where(ok, f0, 0.0) / df
-            leak = np.interp(half_bins, np.arange(len(wspec)), wspec)[:, None]
+            leak = np.interp(half_bins, _bin_index(len(wspec)), wspec)[:, None]
             nxt = np.concatenate([p0[:, 1:], p0[:, -1:]], axis=1)
             valley = np.maximum(valley - leak * (p0 + nxt), 0.0)
         below = np.concatenate([valley[:, :1], valley[:, :-1]], axis=1)   # valley under the harmonic
         noise = 0.5 * (valley + below)
         with np.errstate(divide="ignore", invalid="ignore"):
             snr_db = 10.0 * np.log10(p0 / np.maximum(noise, 1e-300))
-        snr_db = np.nan_to_num(snr_db, nan=0.0)
+        snr_db[np.isnan(snr_db)] = 0.0
         clean = np.maximum(p0 - noise, 0.1 * p0)
         # noise-dominated harmonics: the voice there is somewhere below the
         # noise; assume it is LOST_BELOW_NOISE_DB under the local noise floor
@@ -192,6 +218,9 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
     w = np.asarray(weight, dtype=np.float64)
     n, m = w.shape
     p = int(order)
+    if n == 1:
+        return _dap_one(np.asarray(freq_hz, dtype=np.float64)[0], np.asarray(power, dtype=np.float64)[0], w[0],
+                        p, float(rate_hz), int(iterations))
     omega = 2.0 * np.pi * np.asarray(freq_hz, dtype=np.float64) / rate_hz
     cnt = w.sum(axis=1)
     pw = np.asarray(power, dtype=np.float64) * w
@@ -201,37 +230,99 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
     cosm = np.cos(lags[None, :, None] * omega[:, None, :])         # (n, p+1, M)
     r = np.einsum("nkm,nm->nk", cosm, pw) / np.maximum(cnt, 1)[:, None]
     r[:, 0] *= 1.0 + 1e-9
-    a, _, _ = levinson_durbin(r)
+    a = _toeplitz_solve(r)
     ok = (w > 0).sum(axis=1) >= (p + 1) / 2.0
-    if not np.any(ok):
+    if not ok.any():
         return a, ok
-    idx = np.arange(p + 1)
     sel = np.flatnonzero(ok)
-    toe = r[sel][:, np.abs(idx[:, None] - idx[None, :])]            # (n', p+1, p+1), fixed
+    toe = r[sel][:, _toeplitz_index(p + 1)]                           # (n', p+1, p+1), fixed
     try:
         tinv = np.linalg.inv(toe)
     except np.linalg.LinAlgError:
         return a, np.zeros_like(ok)
+    ws = w[sel]
     cos_s = cosm[sel]                                                # cos(k w_m), (n', p+1, M)
-    sin_s = np.sin(lags[None, :, None] * omega[sel][:, None, :])     # sin(k w_m)
+    if len(sel) == 1:
+        # one frame (streaming): drop the padding slots, work on 1-D arrays
+        live1 = ws[0] > 0
+        cos_s = cos_s[:, :, live1]
+        ws = ws[:, live1]
+        om = omega[sel][:, live1]
+        live = None
+    else:
+        om = omega[sel]
+        live = np.concatenate([ws > 0, ws > 0], axis=1)[:, None, :]
+    sin_s = np.sin(lags[None, :, None] * om[:, None, :])             # sin(k w_m)
     m_ = cos_s.shape[2]
     fwd = np.concatenate([cos_s, -sin_s], axis=2)                    # a @ fwd = [Re A, Im A]
-    back_t = np.concatenate([cos_s, sin_s], axis=2).transpose(0, 2, 1)   # [Hr, Hi] @ back_t = h
-    ws = w[sel]
-    ws2 = np.concatenate([ws, -ws], axis=1)[:, None, :]
-    live = np.concatenate([ws > 0, ws > 0], axis=1)[:, None, :]
-    norm = np.maximum(cnt[sel], 1)[:, None, None]
+    # h(-k) = 1/M sum_m w_m (Hr cos + Hi sin) with [Hr, Hi] = [ar, -ai] / |A|^2, and the
+    # next coefficients are tinv @ h (then a[0] = 1, so the 1/M factor drops out):
+    # fold the weights, the sign of Hi and tinv into one (2M, p+1) matrix per frame
+    ws2 = np.concatenate([ws, -ws], axis=1)[:, :, None]
+    back_t = np.concatenate([cos_s, sin_s], axis=2).transpose(0, 2, 1) * ws2     # (n', 2M, p+1)
+    gmat = back_t @ tinv.transpose(0, 2, 1)
     aa = a[sel][:, None, :].copy()                                   # (n', 1, p+1)
-    for _ in range(int(iterations)):
-        # A(e^{jw}) = sum_k a_k e^{-jkw} = ar + j ai;  H = 1/A = (ar - j ai)/|A|^2
-        ri = aa @ fwd                                                # (n', 1, 2M)
-        mag = ri[:, :, :m_] ** 2 + ri[:, :, m_:] ** 2
-        with np.errstate(divide="ignore", invalid="ignore"):
-            hri = np.where(live, ws2 * ri / np.concatenate([mag, mag], axis=2), 0.0)   # [w Hr, w Hi]
-        # h(-k) = 1/M sum_m w_m Re(H_m e^{-jkw_m}) = 1/M sum_m w_m (Hr cos + Hi sin)
-        h = (hri @ back_t) / norm                                    # (n', 1, p+1)
-        c = h @ tinv.transpose(0, 2, 1)                              # (tinv @ h^T)^T
-        good = np.isfinite(c).all(axis=2)[:, 0] & (np.abs(c[:, 0, 0]) > 0)
-        aa[good] = c[good] / c[good][:, :, :1]
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if live is None:
+            av, fw, gm = aa[0, 0], fwd[0], gmat[0]
+            for _ in range(int(iterations)):
+                ri = av @ fw                                         # [Re A, Im A] at the harmonics
+                sq = ri * ri
+                mag = sq[:m_] + sq[m_:]
+                c = (ri / np.concatenate([mag, mag])) @ gm
+                c0 = c[0]
+                if c0 != 0 and np.isfinite(c).all():
+                    av = c / c0
+            a[sel[0]] = av
+            return a, ok
+        for _ in range(int(iterations)):
+            # A(e^{jw}) = sum_k a_k e^{-jkw} = ar + j ai;  H = 1/A = (ar - j ai)/|A|^2
+            ri = aa @ fwd                                            # (n', 1, 2M)
+            sq = ri * ri
+            mag = sq[:, :, :m_] + sq[:, :, m_:]
+            q = np.where(live, ri / np.concatenate([mag, mag], axis=2), 0.0)
+            c = q @ gmat                                             # (n', 1, p+1)
+            good = np.isfinite(c).all(axis=2)[:, 0] & (c[:, 0, 0] != 0)
+            aa[good] = c[good] / c[good][:, :, :1]
     a[sel] = aa[:, 0, :]
+    return a, ok
+
+
+def _dap_one(freq_hz: np.ndarray, power: np.ndarray, w: np.ndarray, p: int, rate_hz: float,
+             iterations: int) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`dap` for one frame (the streaming case): the same equations on
+    1-D arrays, padding slots dropped, in complex form. With
+    ``E[k, m] = exp(-j k w_m)``: ``A_m = a @ E``, ``h = Re(E @ (w / A))`` and
+    the update ``c = T^-1 h``, folded into ``c = Re((1 / A) @ G)`` with
+    ``G = (w E^T) T^-T`` fixed (a[0] = 1 afterwards, so the 1/M factor drops out).
+    """
+    live = w > 0
+    cnt = w.sum()
+    pw = power * w
+    scale = pw.sum() / max(cnt, 1) if cnt > 0 else 1.0
+    pw = pw / (scale if scale > 0 else 1.0)
+    wl = w[live]
+    om = 2.0 * np.pi * freq_hz[live] / rate_hz
+    e = np.exp(-1j * np.arange(p + 1)[:, None] * om[None, :])        # (p+1, M')
+    r = (e.real @ pw[live]) / max(cnt, 1)
+    r[0] *= 1.0 + 1e-9
+    a = _toeplitz_solve(r[None, :])
+    ok = np.array([int(live.sum()) >= (p + 1) / 2.0])
+    if not ok[0]:
+        return a, ok
+    try:
+        tinv = np.linalg.inv(r[_toeplitz_index(p + 1)])
+    except np.linalg.LinAlgError:
+        return a, np.zeros_like(ok)
+    g = (e.T * wl[:, None]) @ tinv.T                                 # (M', p+1) complex
+    av = a[0]
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        for _ in range(iterations):
+            c = (1.0 / (av @ e) @ g).real
+            c0 = c[0]
+            # a non-finite or degenerate update would repeat for ever: keep the last good one
+            if c0 == 0 or not math.isfinite(c @ c):
+                break
+            av = c / c0
+    a[0] = av
     return a, ok

@@ -83,7 +83,7 @@ from livevowel.dsp import framing
 from livevowel.dsp.dap import dap, harmonic_powers
 from livevowel.dsp.lpc import METHODS as LPC_METHODS
 from livevowel.dsp.lpc import formant_candidates, lpc
-from livevowel.dsp.pitch import cmnd, difference_function, frame_level_db, voicing_hysteresis, yin, yin_frame_length
+from livevowel.dsp.pitch import frame_level_db, voicing_hysteresis, yin, yin_frame_length
 from livevowel.dsp.resample import StreamResampler, resample
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
                                     state_table, viterbi_segments)
@@ -453,13 +453,11 @@ def _pitch(rows: np.ndarray, plan: _Plan, s: AnalysisSettings) -> tuple[np.ndarr
     sec. II.E discuss such "too high" errors).
     """
     f0_max = min(s.f0_max_hz, plan.rate_hz / 4.0)
-    f0, ap = yin(rows, rate_hz=plan.rate_hz, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max,
-                 threshold=s.yin_threshold, fallback=True)
-    tau_max = int(np.ceil(plan.rate_hz / s.f0_min_hz))
+    f0, ap, dp = yin(rows, rate_hz=plan.rate_hz, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max,
+                     threshold=s.yin_threshold, fallback=True, return_cmnd=True)
+    tau_max = dp.shape[1] - 2
     ok = np.isfinite(f0)
-    if np.any(ok):
-        d = difference_function(rows, max_lag=tau_max + 1, window=rows.shape[1] - tau_max - 1)
-        dp = cmnd(d)
+    if ok.any():
         tau2 = np.where(ok, np.rint(2.0 * plan.rate_hz / np.where(ok, f0, 1.0)), 0).astype(int)
         fits = ok & (tau2 <= tau_max)
         d2 = np.where(fits, dp[np.arange(len(f0)), np.clip(tau2, 0, tau_max)], np.inf)
@@ -527,12 +525,20 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
             f0 = out["f0_hz"]
         coeffs = lpc(cond, order=plan.order, method="autocorrelation", window=None, rate_hz=plan.rate_hz)
         use = np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
-        if np.any(use):
-            hf, hp, hw = harmonic_powers(cond[use], f0[use], rate_hz=plan.rate_hz,
+        sel = np.flatnonzero(use)
+        if len(sel) > 1:
+            # frames in half-octave bands of F0: the harmonic count and the peak
+            # search width (hence the padded array sizes) vary little within a band
+            band = np.floor(2.0 * np.log2(f0[sel])).astype(np.int64)
+            groups = [sel[band == b] for b in np.unique(band)]
+        else:
+            groups = [sel] if len(sel) else []
+        for g in groups:
+            hf, hp, hw = harmonic_powers(cond[g], f0[g], rate_hz=plan.rate_hz,
                                          max_hz=plan.rate_hz / 2.0 - plan.min_hz, nfft=1024,
                                          window=plan.taper)
             a_dap, _ = dap(hf, hp, hw, order=plan.order, rate_hz=plan.rate_hz, iterations=s.dap_iterations)
-            coeffs[use] = a_dap
+            coeffs[g] = a_dap
     else:
         coeffs = lpc(cond, order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)
     cf, cb = formant_candidates(coeffs, rate_hz=plan.rate_hz, min_hz=plan.min_hz,
@@ -703,6 +709,7 @@ class _ChainStream:
         self.s = s
         self.pitch = pitch
         self.formants = True     # False: F0 and level only (primary chain of a settled auto voice)
+        self.idle = False        # True: keep samples from frame k on but measure nothing (unsettled auto voice)
         self.rs = StreamResampler(input_rate, plan.rate_hz)
         self.buf = np.zeros(0)
         self.base = 0            # absolute analysis-rate index of buf[0]
@@ -718,7 +725,7 @@ class _ChainStream:
     def _frames_ready(self) -> list[dict]:
         out = []
         p = self.plan
-        while True:
+        while not self.idle:
             start = self.k * p.hop
             if self.total is not None:
                 if start + p.n > self.total:
@@ -795,6 +802,10 @@ class StreamingAnalyzer:
         self.primary = voices[0]
         self.chains = {v: _ChainStream(self.plans[v], self.input_rate_hz, s, pitch=(v == self.primary))
                        for v in voices}
+        # the other voices of an unsettled auto voice only keep their resampled
+        # samples; the one chosen measures from the frame after the decision
+        for v in voices[1:]:
+            self.chains[v].idle = True
         self.active = self.primary
         self.settled = not self.auto
         self._pending: dict[str, dict[int, dict]] = {v: {} for v in voices}
@@ -905,6 +916,10 @@ class StreamingAnalyzer:
                     d.pop(k, None)
             self._queue.append(self._make_record(k, p, cand))
             self._k += 1
+            if not self.settled:
+                for ch in self.chains.values():
+                    if ch.idle:
+                        ch.k = self._k
             while len(self._queue) >= 2:
                 outs.append(self._finalize(self._queue.pop(0), self._queue[0]))
         if final:
@@ -926,7 +941,7 @@ class StreamingAnalyzer:
         if not self.settled and voiced and np.isfinite(f0):
             self._voiced_f0.append(f0)
             if len(self._voiced_f0) >= self._settle_frames:
-                self._settle(voice_from_f0(float(np.median(self._voiced_f0))))
+                self._settle(voice_from_f0(float(np.median(self._voiced_f0))), k)
         rec = {"k": k, "voiced": voiced, "f0": f0, "aper": float(p["aper"]), "level": float(p["level_db"]),
                "time": (k * self.plans[self.primary].hop + (self.plans[self.primary].n - 1) / 2.0)
                / self.plans[self.primary].rate_hz, "cost": None, "sf": None, "sb": None}
@@ -937,10 +952,15 @@ class StreamingAnalyzer:
             rec.update(cost=cost[0], sf=sf[0], sb=sb[0])
         return rec
 
-    def _settle(self, voice: str) -> None:
+    def _settle(self, voice: str, k: int) -> None:
         self.settled = True
         if voice != self.active:
             self.active = voice
+            ch = self.chains[voice]
+            ch.idle = False
+            ch.k = k + 1
+            for item in ch._frames_ready():
+                self._pending[voice][item["k"]] = item
         # stop measuring the voices not chosen (the primary keeps F0 and level)
         for v in list(self.chains):
             if v not in (self.primary, self.active):
