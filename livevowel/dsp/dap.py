@@ -112,6 +112,9 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
     frames = np.asarray(frames, dtype=np.float64)
     n, big_n = frames.shape
     nfft = max(nfft, 1 << int(np.ceil(np.log2(big_n))))
+    if n == 1:
+        return _harmonic_powers_one(frames[0], float(np.asarray(f0_hz, dtype=np.float64).reshape(-1)[0]),
+                                    float(rate_hz), float(max_hz), nfft, float(search), noise_floor, window)
     spec = np.abs(np.fft.rfft(frames, nfft, axis=1)) ** 2
     df = rate_hz / nfft
     f0 = np.asarray(f0_hz, dtype=np.float64)
@@ -190,6 +193,73 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
     power = np.where(weight > 0, p0, 1.0)
     freq = np.where(weight > 0, freq, 0.0)
     return freq, power, weight
+
+
+def _harmonic_powers_one(frame: np.ndarray, f0: float, rate_hz: float, max_hz: float, nfft: int, search: float,
+                         noise_floor: bool, window: np.ndarray | None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """:func:`harmonic_powers` for one frame (the streaming case), same steps on 1-D arrays."""
+    if not (math.isfinite(f0) and f0 > 0) or math.floor(max_hz / f0) < 1:
+        z = np.zeros((1, 1))
+        return z, np.ones((1, 1)), z
+    spec = np.fft.rfft(frame, nfft)
+    spec = spec.real * spec.real + spec.imag * spec.imag
+    n_bins = len(spec)
+    df = rate_hz / nfft
+    m = int(math.floor(max_hz / f0))
+    k = np.arange(1, m + 1)
+    centre = k * (f0 / df)
+    half = max(1.0, search * f0 / df)
+    width = int(math.ceil(search * f0 / df)) + 1
+    offs = np.arange(-width, width + 1)
+    bins = np.rint(centre)[:, None] + offs
+    inside = (np.abs(bins - centre[:, None]) <= half) & (bins >= 1) & (bins < n_bins - 1)
+    b_idx = np.clip(bins, 1, n_bins - 2).astype(np.intp)
+    vals = np.where(inside, spec[b_idx], -np.inf)
+    peak_bin = b_idx[np.arange(m), vals.argmax(axis=1)]
+    p0 = spec[peak_bin]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        lm = np.log(spec[peak_bin - 1] + 1e-300)
+        l0 = np.log(p0 + 1e-300)
+        lp = np.log(spec[peak_bin + 1] + 1e-300)
+        den = lm - 2 * l0 + lp
+        neg = den < 0
+        shift = np.where(neg, 0.5 * (lm - lp) / np.where(neg, den, -1.0), 0.0)
+    np.clip(shift, -0.5, 0.5, out=shift)
+    freq = (peak_bin + shift) * df
+    snr_w = 1.0
+    if noise_floor:
+        vc = (k + 0.5) * (f0 / df)
+        vhalf = max(1.0, 0.15 * f0 / df)
+        vb = np.rint(vc)[:, None] + offs
+        vin = (np.abs(vb - vc[:, None]) <= vhalf) & (vb >= 0) & (vb < n_bins)
+        vidx = np.clip(vb, 0, n_bins - 1).astype(np.intp)
+        vv = np.where(vin, spec[vidx], 0.0)
+        valley = vv.sum(axis=1) / np.maximum(vin.sum(axis=1), 1)
+        if window is not None:
+            wspec = _window_power(np.asarray(window, dtype=np.float64), nfft)
+            leak = float(np.interp(0.5 * f0 / df, _bin_index(len(wspec)), wspec))
+            nxt = np.concatenate([p0[1:], p0[-1:]])
+            valley = np.maximum(valley - leak * (p0 + nxt), 0.0)
+        below = np.concatenate([valley[:1], valley[:-1]])
+        noise = 0.5 * (valley + below)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            snr_db = 10.0 * np.log10(p0 / np.maximum(noise, 1e-300))
+        snr_db[np.isnan(snr_db)] = 0.0
+        clean = np.maximum(p0 - noise, 0.1 * p0)
+        top = max(float(clean.max()), 0.0)
+        lost = snr_db < NOISE_DROP_DB
+        floor = top * 10.0 ** (FLOOR_DB / 10.0)
+        guess = np.maximum(noise * 10.0 ** (-LOST_BELOW_NOISE_DB / 10.0), floor)
+        reliable = np.flatnonzero(~lost)
+        last_ok = int(k[reliable[-1]]) if len(reliable) else 0
+        sunk = lost & (k > last_ok)
+        p0 = np.where(sunk, np.minimum(p0, guess), np.where(lost, np.maximum(p0 - noise, floor), clean))
+        snr_w = np.where(lost, LOST_WEIGHT, np.clip(snr_db / 12.0, LOST_WEIGHT, 1.0))
+    weight = (p0 > 0) * snr_w
+    live = weight > 0
+    power = np.where(live, p0, 1.0)
+    freq = np.where(live, freq, 0.0)
+    return freq[None, :], power[None, :], np.asarray(weight, dtype=np.float64)[None, :]
 
 
 def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: int, rate_hz: float,

@@ -131,6 +131,7 @@ AUTO_F0_MALE_BELOW_HZ = 165.0
 AUTO_F0_FEMALE_BELOW_HZ = 250.0
 
 _AUTO_DEFAULT = "adult_female"
+_GATE_MARGIN_DB = 6.0      # voicing_hysteresis default margin_db, used by both paths
 _LOWEST_RATE_HZ = 8000
 _HIGHEST_RATE_HZ = 192000
 
@@ -523,9 +524,14 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
             f0, _ = _pitch(rows[:, 1:], plan, s)
         else:
             f0 = out["f0_hz"]
-        coeffs = lpc(cond, order=plan.order, method="autocorrelation", window=None, rate_hz=plan.rate_hz)
         use = np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
         sel = np.flatnonzero(use)
+        # autocorrelation LPC only where DAP does not replace it
+        coeffs = np.empty((n_k, plan.order + 1))
+        rest = np.flatnonzero(~use)
+        if len(rest):
+            coeffs[rest] = lpc(cond[rest], order=plan.order, method="autocorrelation", window=None,
+                               rate_hz=plan.rate_hz)
         if len(sel) > 1:
             # frames in half-octave bands of F0: the harmonic count and the peak
             # search width (hence the padded array sizes) vary little within a band
@@ -621,7 +627,8 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
     feat = _features(plan, s, xa, 0, ks, pitch=True)
     gate_level, _ = relative_level(feat["level_db"], s, None)
     voiced, _ = voicing_hysteresis(feat["aper"], gate_level, on_threshold=s.voicing_on,
-                                   off_threshold=s.voicing_off, floor_db=s.voicing_floor_db)
+                                   off_threshold=s.voicing_off, floor_db=s.voicing_floor_db,
+                                   margin_db=_GATE_MARGIN_DB)
     if n_frames and np.all(feat["level_db"] <= -119.0):
         warns.append("input is digital silence; every frame is unvoiced")
     voice = voice0
@@ -930,11 +937,19 @@ class StreamingAnalyzer:
 
     def _make_record(self, k: int, p: dict, cand: dict | None) -> dict:
         s = self.settings
-        gate_level, self._peak_db = relative_level(np.array([p["level_db"]]), s, self._peak_db)
-        voiced_arr, self._gate_state = voicing_hysteresis(
-            np.array([p["aper"]]), gate_level, on_threshold=s.voicing_on,
-            off_threshold=s.voicing_off, floor_db=s.voicing_floor_db, initial=self._gate_state)
-        voiced = bool(voiced_arr[0])
+        # relative_level and voicing_hysteresis (default margin) for one frame, on scalars
+        lv = float(p["level_db"])
+        decay = s.voicing_peak_decay_db_per_s * s.hop_s
+        self._peak_db = lv if self._peak_db is None else max(lv, self._peak_db - decay)
+        gate_lv = -200.0 if lv < self._peak_db - s.voicing_relative_db else lv
+        ap = float(p["aper"])
+        if math.isnan(ap):
+            ap = math.inf
+        turn_off = ap > s.voicing_off or gate_lv < s.voicing_floor_db - _GATE_MARGIN_DB or math.isnan(gate_lv)
+        turn_on = ap < s.voicing_on and gate_lv > s.voicing_floor_db and not turn_off
+        if turn_on or turn_off:
+            self._gate_state = turn_on
+        voiced = self._gate_state
         f0 = float(p["f0_hz"]) if voiced else float("nan")
         plan = self.plans[self.active]     # candidates of this frame come from the voice active now
         # causal auto voice: settle at a fixed frame; the switch applies from the next frame

@@ -154,20 +154,33 @@ def local_costs(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz:
     if costs.w_skip:
         # leaving out a candidate that lies below the highest formant taken
         k = freq.shape[1]
-        assigned = np.zeros((len(states), k), dtype=bool)
-        for c in range(3):
-            ok = states[:, c] >= 0
-            assigned[np.flatnonzero(ok), states[ok, c]] = True
-        top = states.max(axis=1)
-        skipped = (~assigned) & (np.arange(k)[None, :] < top[:, None])
+        skipped_t = _skipped_t(k) if states is _state_table(k) else _skipped_matrix(states, k)
         f0a = np.asarray(f0_hz, dtype=float)
         h = _harmonic_likeness(freq[:, None, :], bw[:, None, :], f0a, costs.harm_bw_hz)[:, 0, :]
         with np.errstate(invalid="ignore"):
             val = np.exp(-bw / costs.skip_bw_hz) * (1.0 - h)
         val = np.where(np.isfinite(val), val, 0.0)
-        total = total + costs.w_skip * val @ skipped.T.astype(np.float64)
+        total = total + costs.w_skip * val @ skipped_t
     total = np.where(need, total, np.inf)
     return total, sf, sb
+
+
+def _skipped_matrix(states: np.ndarray, k: int) -> np.ndarray:
+    """``(K, S)`` float: 1 where state s leaves out candidate slot k below its highest slot."""
+    assigned = np.zeros((len(states), k), dtype=bool)
+    for c in range(3):
+        ok = states[:, c] >= 0
+        assigned[np.flatnonzero(ok), states[ok, c]] = True
+    top = states.max(axis=1)
+    skipped = (~assigned) & (np.arange(k)[None, :] < top[:, None])
+    return skipped.T.astype(np.float64)
+
+
+@lru_cache(maxsize=16)
+def _skipped_t(k: int) -> np.ndarray:
+    out = _skipped_matrix(_state_table(k), k)
+    out.setflags(write=False)
+    return out
 
 
 def transition_costs(prev: np.ndarray, cur: np.ndarray, costs: TrackerCosts) -> np.ndarray:
@@ -215,12 +228,19 @@ def viterbi_segments(cost: np.ndarray, sf: np.ndarray, segment_start: np.ndarray
         with np.errstate(invalid="ignore", divide="ignore"):
             logf = np.log(sf[idx])                # (len, S, 3); NaN where missing
         logf = np.where(np.isfinite(logf), logf, np.nan)
-        for j in range(1, len(idx)):
-            d = np.abs(logf[j][None, :, :] - logf[j - 1][:, None, :])
-            tr = costs.w_trans * np.where(np.isnan(d), 0.0, d).sum(axis=2)   # = transition_costs
-            tot = acc[:, None] + tr              # impossible states stay inf
-            back[j] = np.argmin(tot, axis=0)
-            acc = tot[back[j], np.arange(s)] + cost[idx[j]]
+        cols = np.arange(s)
+        # transition costs of all steps at once (= transition_costs), in chunks of frames
+        step = max(1, 200000 // (s * s * 3))
+        for j0 in range(1, len(idx), step):
+            j1 = min(len(idx), j0 + step)
+            d = np.abs(logf[j0:j1, None, :, :] - logf[j0 - 1:j1 - 1, :, None, :])
+            d[np.isnan(d)] = 0.0
+            trs = costs.w_trans * d.sum(axis=3)                          # (steps, S_prev, S_cur)
+            for j in range(j0, j1):
+                tot = acc[:, None] + trs[j - j0]     # impossible states stay inf
+                bj = tot.argmin(axis=0)
+                back[j] = bj
+                acc = tot[bj, cols] + cost[idx[j]]
         st = int(np.argmin(acc))
         for j in range(len(idx) - 1, -1, -1):
             best[idx[j]] = st
