@@ -84,6 +84,15 @@ class Scenario:
     def duration_s(self) -> float:
         return float(self.schedule.duration_s)
 
+    def picture_time_s(self) -> float:
+        """A moment worth a picture: 0.2 s into the steady part of the last planned hit.
+
+        The dot is inside the target with its trail behind it and the hold arc
+        filling; the headless demo stops here when nobody chose --seconds.
+        """
+        hits = [a for a in self.attempts if a.outcome == "hit"]
+        return float((hits[-1] if hits else self.attempts[-1]).steady_s[0] + 0.2)
+
     def planned_hits(self, target_id: str | None = None) -> int:
         return sum(1 for a in self.attempts if a.outcome == "hit" and target_id in (None, a.target_id))
 

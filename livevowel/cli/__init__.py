@@ -69,7 +69,7 @@ def build_parser() -> argparse.ArgumentParser:
             formatter_class=argparse.RawDescriptionHelpFormatter,
         )
         mod.configure(p)
-        p.set_defaults(_run=mod.run)
+        p.set_defaults(_run=mod.run, _parser=p)
     return parser
 
 
@@ -82,7 +82,10 @@ def add_config_option(parser: argparse.ArgumentParser) -> None:
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``livevowel`` console script; returns the exit status."""
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args, extra = parser.parse_known_args(argv)
+    if extra:
+        sub = getattr(args, "_parser", parser)
+        sub.error(f"unrecognized arguments: {' '.join(extra)}")
     if not getattr(args, "command", None):
         parser.print_help()
         return 2

@@ -43,8 +43,12 @@ def run(args: argparse.Namespace) -> int:
 
     settings, options = settings_and_options(args)
     if not args.headless and not screen_available():
+        from livevowel.demo import demo_scenario
+
         args.headless = True
         args.screenshot = args.screenshot or "livevowel-demo.png"
+        if args.seconds is None:
+            args.seconds = demo_scenario().picture_time_s()
         print("demo: no screen here (DISPLAY is not set), so the demo runs without a window "
               f"and saves its last picture to {args.screenshot}")
     if args.pace is None:

@@ -60,7 +60,7 @@ def add_drill_options(parser: argparse.ArgumentParser, *, file_positional: bool 
     g.add_argument("--voice-group", metavar="G", choices=("adult_male", "adult_female", "child"),
                    help="voice group to record for a new speaker")
     if not practice:
-        g.add_argument("--set", dest="target_set", metavar="SET",
+        g.add_argument("--targets", "--set", dest="target_set", metavar="SET",
                        help="target set to use instead of the one the drill names")
     if practice:
         g.add_argument("--coach", action="store_true",
@@ -69,7 +69,7 @@ def add_drill_options(parser: argparse.ArgumentParser, *, file_positional: bool 
     g.add_argument("--data", metavar="DIR", help="data folder of the session record "
                    "(default: $LIVEVOWEL_DATA or the user data folder)")
     g.add_argument("--no-clips", action="store_true", help="do not save audio clips of the attempts")
-    g.add_argument("--no-save", action="store_true", help="keep the session in memory only (nothing is written)")
+    g.add_argument("--no-save", "--no-store", dest="no_save", action="store_true", help="keep the session in memory only (nothing is written)")
     g.add_argument("--pause", metavar="S", type=float,
                    help="seconds the result shows before the next prompt (default: the drill's pause_s)")
     g.add_argument("--seed", metavar="N", type=int, help="seed for shuffled blocks that have none (recorded)")

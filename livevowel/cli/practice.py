@@ -39,7 +39,7 @@ def configure(parser: argparse.ArgumentParser) -> None:
                         help="target set: a shipped name (see `livevowel targets`) or a YAML file "
                              "(with --drill: instead of the drill's own set)")
     parser.add_argument("--target", metavar="ID", help="practise only this target (id, IPA symbol or keyword)")
-    parser.add_argument("--speaker-profile", metavar="FILE", help="map the regions through this speaker profile")
+    parser.add_argument("--profile", "--speaker-profile", dest="speaker_profile", metavar="FILE", help="map the regions through this speaker profile")
     add_config_option(parser)
     add_screen_options(parser)
     add_source_options(parser)
@@ -70,10 +70,13 @@ def run(args: argparse.Namespace) -> int:
     source = source_from_args(args, live=LiveSettings.from_config(settings))
     if args.headless is False:
         print(CAUTION, file=sys.stderr)
-    res = run_practice(settings=settings, options=options, targets=args.targets, target_id=args.target,
+    screen, res = run_practice(settings=settings, options=options, targets=args.targets, target_id=args.target,
                        profile_path=args.speaker_profile, source=source, headless=args.headless,
                        seconds=args.seconds, screenshot=args.screenshot, pace=getattr(args, "pace", 1.0) or 0.0,
                        size=size, fullscreen=args.fullscreen)
+    c = screen.counter
+    print(f"practice: {res.input_s:.1f} s of input, {c.hits} hits in {c.attempts} attempts, "
+          f"best streak {c.best_streak}")
     if res.screenshot is not None:
         print(f"screenshot: {res.screenshot}")
     return 0

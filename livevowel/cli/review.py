@@ -61,7 +61,7 @@ def configure(parser: argparse.ArgumentParser) -> None:
     g.add_argument("--speaker", metavar="ID", help="pseudonymous speaker id (e.g. S07; never a name)")
     g.add_argument("--data", metavar="DIR", help="data folder of the session record "
                    "(default: $LIVEVOWEL_DATA or the user data folder)")
-    g.add_argument("--no-store", action="store_true", help="do not store the sessions; print (and --csv) only")
+    g.add_argument("--no-store", "--no-save", dest="no_store", action="store_true", help="do not store the sessions; print (and --csv) only")
     g.add_argument("--no-clips", action="store_true", help="do not save audio clips of the attempts")
     g.add_argument("--csv", metavar="FILE", help="also write every attempt found as CSV ('-' for standard output)")
     g.add_argument("--note", metavar="TEXT", help="a note stored with each session")

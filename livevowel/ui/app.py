@@ -77,7 +77,9 @@ def run_practice(*, settings: Any, options: Any, targets: str, target_id: str | 
                  profile_path: "str | os.PathLike | None" = None, source: Any, headless: bool = False,
                  seconds: float | None = None, screenshot: "str | os.PathLike | None" = None,
                  pace: float = 1.0, size: tuple[int, int] = (1280, 800), fullscreen: bool = False) -> Any:
-    """Free practice over a set, or practice on one target (``target_id``)."""
+    """Free practice over a set, or practice on one target (``target_id``).
+
+    Returns ``(screen, loop_result)``: the screen holds the counters."""
     from livevowel.feedback import TargetController
     from livevowel.ui import loop
     from livevowel.ui.screen import PracticeScreen
@@ -95,5 +97,6 @@ def run_practice(*, settings: Any, options: Any, targets: str, target_id: str | 
     title = ts.title + ("  ·  speaker profile" if profile_path else "")
     screen = PracticeScreen(ts, controller, options=options, on_hit=lambda e: tone.play(), title=title)
     pipeline = make_pipeline(source, settings)
-    return loop.run(screen, pipeline, headless=headless, seconds=seconds, screenshot=screenshot, size=size,
-                    fullscreen=fullscreen, pace=pace)
+    res = loop.run(screen, pipeline, headless=headless, seconds=seconds, screenshot=screenshot, size=size,
+                   fullscreen=fullscreen, pace=pace)
+    return screen, res

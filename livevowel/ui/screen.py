@@ -511,9 +511,9 @@ class PracticeScreen:
         # noise
         snr = getattr(h, "snr_db", None)
         if snr is not None and math.isfinite(snr):
-            word, col = ("quiet room", th.text) if snr >= 20 else (("some noise", th.text) if snr >= 10
-                                                                 else ("noisy", th.warn))
-            r = D.blit_text(surface, F.text(f"{word} {snr:.0f} dB", size, col), x + 12 * u, cy, "midleft")
+            col = th.text if snr >= 10 else th.warn
+            word = "" if snr >= 20 else (" (some noise)" if snr >= 10 else " (noisy)")
+            r = D.blit_text(surface, F.text(f"SNR {snr:.0f} dB{word}", size, col), x + 12 * u, cy, "midleft")
             x = r.right + 10 * u
         # numbers
         fr = self._dot if self.dot_visible(now_s) else None

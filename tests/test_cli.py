@@ -1,0 +1,30 @@
+"""The command line as a whole: usage messages and shared options."""
+
+import pytest
+
+from livevowel.cli import main
+
+
+def test_unknown_option_shows_the_commands_own_usage(capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(["analyze", "--frobnicate"])
+    assert exc.value.code == 2
+    err = capsys.readouterr().err
+    assert err.startswith("usage: livevowel analyze")
+    assert "unrecognized arguments: --frobnicate" in err
+
+
+@pytest.mark.parametrize("argv", [
+    ["practice", "--help"],
+    ["drill", "--help"],
+    ["review", "--help"],
+])
+def test_profile_and_storage_options_have_the_same_names_everywhere(argv, capsys):
+    with pytest.raises(SystemExit):
+        main(argv)
+    out = capsys.readouterr().out
+    assert "--profile" in out
+    if argv[0] in ("drill", "review"):
+        assert "--no-store" in out and "--no-save" in out
+    if argv[0] == "drill":
+        assert "--targets" in out
