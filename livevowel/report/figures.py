@@ -158,12 +158,14 @@ def plane_figure(rows: Sequence[Mapping], target_set=None, *, title: str = "",
                 ax.plot([float(r["f2_hz"]), t.f2_hz], [float(r["f1_hz"]), t.f1_hz], color=COLOURS["miss"],
                         lw=0.8, alpha=0.45, ls=(0, (1, 2)), zorder=3.5)
     n = {k: len(v[0]) for k, v in groups.items()}
-    ax.scatter(*groups["unjudged"], s=34, marker="D", facecolors="none", edgecolors=COLOURS["unjudged"],
+    # Sizes nest so that marks at the same place all stay visible: the hollow
+    # diamond (not counted) outermost, the hit disc inside it, the thin miss
+    # cross on top, its arms shorter than the disc is wide.
+    ax.scatter(*groups["unjudged"], s=150, marker="D", facecolors="none", edgecolors=COLOURS["unjudged"],
                linewidths=1.1, zorder=4, label=f"not counted ({n['unjudged']})")
-    ax.scatter(*groups["hit"], s=72, marker="o", color=COLOURS["hit"], edgecolors="white", linewidths=0.7,
+    ax.scatter(*groups["hit"], s=90, marker="o", color=COLOURS["hit"], edgecolors="white", linewidths=0.7,
                zorder=5, label=f"hit ({n['hit']})")
-    # misses on top, as thin crosses: a hit at the same place still shows through
-    ax.scatter(*groups["miss"], s=64, marker="x", color=COLOURS["miss"], linewidths=2.0, zorder=6,
+    ax.scatter(*groups["miss"], s=40, marker="x", color=COLOURS["miss"], linewidths=1.6, zorder=6,
                label=f"miss ({n['miss']})")
     for k in groups:
         xs += groups[k][0]
