@@ -28,3 +28,13 @@ def test_profile_and_storage_options_have_the_same_names_everywhere(argv, capsys
         assert "--no-store" in out and "--no-save" in out
     if argv[0] == "drill":
         assert "--targets" in out
+
+
+def test_a_drill_on_a_bad_input_file_leaves_no_empty_session(tmp_path, capsys):
+    bad = tmp_path / "take.wav"
+    bad.write_text("not sound")
+    data = tmp_path / "record"
+    rc = main(["drill", "front-vowels-five-vowel-l1", "--source", f"file:{bad}", "--data", str(data)])
+    assert rc == 2
+    assert "not an audio file" in capsys.readouterr().err
+    assert not (data / "sessions.sqlite3").exists()

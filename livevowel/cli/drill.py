@@ -95,14 +95,10 @@ def _print_shipped() -> int:
     return 0
 
 
-def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
-    """Load drill, set, profile and settings; open the record. Returns (session, recorder, extras)."""
-    from livevowel import config
+def drill_and_set(args: argparse.Namespace):
+    """The drill and its target set from the options, checked against each other."""
     from livevowel.errors import UserError
-    from livevowel.session.attempts import AttemptSettings
     from livevowel.session.drills import check_targets, load_drill, resolve_target_set_ref
-    from livevowel.session.runner import DrillSession
-    from livevowel.session.store import SessionRecorder, check_speaker_id
     from livevowel.targets import load_target_set
 
     if not args.drill:
@@ -110,10 +106,22 @@ def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
     if args.pause is not None and not (0 <= args.pause <= 30):
         raise UserError(f"--pause {args.pause}: give 0 to 30 seconds")
     drill = load_drill(args.drill)
-    settings = getattr(args, "_settings", None) or config.load(config_file=getattr(args, "config", None))
     set_ref = getattr(args, "target_set", None) or getattr(args, "targets", None)
     ts = load_target_set(set_ref or resolve_target_set_ref(drill))
     check_targets(drill, ts)
+    return drill, ts
+
+
+def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
+    """Load drill, set, profile and settings; open the record. Returns (session, recorder, extras)."""
+    from livevowel import config
+    from livevowel.errors import UserError
+    from livevowel.session.attempts import AttemptSettings
+    from livevowel.session.runner import DrillSession
+    from livevowel.session.store import SessionRecorder, check_speaker_id
+
+    settings = getattr(args, "_settings", None) or config.load(config_file=getattr(args, "config", None))
+    drill, ts = getattr(args, "_drill_and_set", None) or drill_and_set(args)
     speaker = args.speaker
     profile = None
     profile_path = getattr(args, "profile", None) or getattr(args, "speaker_profile", None)
@@ -192,8 +200,19 @@ def run_drill(args: argparse.Namespace) -> int:
 
         raise UserError("coach-led drills need the screen (someone presses the keys); "
                         "run 'livevowel practice --drill FILE --coach' or leave out --coach")
+    from livevowel import config
+
+    # Check the drill and open the input before a session is created, so a bad drill
+    # or input file leaves no empty session behind.
+    args._drill_and_set = drill_and_set(args)
+    settings = getattr(args, "_settings", None) or config.load(config_file=getattr(args, "config", None))
+    args._settings = settings
+    try:
+        live = LiveSettings.from_config(settings) if "live" in settings.values else LiveSettings()
+    except KeyError:
+        live = LiveSettings()
+    source = source_from_args(args, live=live)
     session, rec, extra = prepare(args, warn=warn)
-    settings = extra["settings"]
     quiet = getattr(args, "quiet", False)
     if not quiet:
         def show(oc) -> None:
@@ -204,11 +223,6 @@ def run_drill(args: argparse.Namespace) -> int:
         where = "memory only" if rec.in_memory else str(rec.folder)
         print(f"session {extra['session_id']}: drill {d.id} ({d.title}), set {extra['target_set'].id}, "
               f"record: {where}", flush=True)
-    try:
-        live = LiveSettings.from_config(settings) if "live" in settings.values else LiveSettings()
-    except KeyError:
-        live = LiveSettings()
-    source = source_from_args(args, live=live)
     interrupted = False
     try:
         summary = run_headless(session, source, analysis=AnalysisSettings.from_config(settings), live=live,
