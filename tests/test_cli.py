@@ -38,3 +38,11 @@ def test_a_drill_on_a_bad_input_file_leaves_no_empty_session(tmp_path, capsys):
     assert rc == 2
     assert "not an audio file" in capsys.readouterr().err
     assert not (data / "sessions.sqlite3").exists()
+
+
+def test_source_that_looks_like_a_file_suggests_file_prefix():
+    from livevowel.audio.options import open_source
+    from livevowel.errors import UserError
+
+    with pytest.raises(UserError, match="--source file:take.wav"):
+        open_source("take.wav")

@@ -59,6 +59,10 @@ def parse_spec(spec: str) -> tuple[str, str | None]:
         if not path:
             raise UserError("--source file: needs a path, e.g. --source file:recording.wav")
         return "file", path
+    from pathlib import Path
+
+    if Path(spec).suffix.lower() in (".wav", ".flac", ".ogg", ".oga", ".aiff", ".aif"):
+        raise UserError(f"unknown --source {spec!r}; for a recording write --source file:{spec}")
     raise UserError(f"unknown --source {spec!r}; use {SOURCE_HELP}")
 
 

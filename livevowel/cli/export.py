@@ -45,7 +45,7 @@ def configure(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--csv", metavar="FILE", help="write the CSV here ('-' for standard output)")
     parser.add_argument("--format", choices=("csv", "json"), default=None,
                         help="csv (default; one row per attempt) or json (sessions, summaries, events, attempts)")
-    parser.add_argument("--out", metavar="FILE", help="write the export here ('-' for standard output)")
+    parser.add_argument("--out", metavar="FILE", help="write the export here (default: standard output)")
     parser.add_argument("--track", action="store_true", help="add the frame track of each attempt (JSON column)")
     parser.add_argument("--data", metavar="DIR",
                         help="data folder of the session record (default: $LIVEVOWEL_DATA or the user data folder)")
@@ -86,9 +86,9 @@ def run(args: argparse.Namespace) -> int:
 
     if (args.session is None) == (args.speaker is None):
         raise UserError("name a SESSION number or --speaker ID (one of them)")
-    out = args.out or args.csv
-    if out is None or (args.out and args.csv):
-        raise UserError("give the output file once: --out FILE (or --csv FILE); '-' for standard output")
+    if args.out and args.csv:
+        raise UserError("give the output file once: --out FILE or --csv FILE, not both")
+    out = args.out or args.csv or "-"  # standard output by default, like most Unix tools
     fmt = args.format or "csv"
     if args.csv and fmt != "csv":
         raise UserError("--csv writes CSV; use --out FILE with --format json")
