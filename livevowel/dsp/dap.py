@@ -352,8 +352,9 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
             mag = sq[:, :, :m_] + sq[:, :, m_:]
             q = np.where(live, ri / np.concatenate([mag, mag], axis=2), 0.0)
             c = q @ gmat                                             # (n', 1, p+1)
-            good = np.isfinite(c).all(axis=2)[:, 0] & (c[:, 0, 0] != 0)
-            aa[good] = c[good] / c[good][:, :, :1]
+            nxt = c / c[:, :, :1]
+            good = np.isfinite(nxt).all(axis=2, keepdims=True)     # also False where c[0] == 0
+            aa = np.where(good, nxt, aa)
     a[sel] = aa[:, 0, :]
     return a, ok
 
@@ -376,14 +377,17 @@ def _dap_one(freq_hz: np.ndarray, power: np.ndarray, w: np.ndarray, p: int, rate
     e = np.exp(-1j * np.arange(p + 1)[:, None] * om[None, :])        # (p+1, M')
     r = (e.real @ pw[live]) / max(cnt, 1)
     r[0] *= 1.0 + 1e-9
-    a = _toeplitz_solve(r[None, :])
     ok = np.array([int(live.sum()) >= (p + 1) / 2.0])
     if not ok[0]:
-        return a, ok
+        return _toeplitz_solve(r[None, :]), ok
     try:
         tinv = np.linalg.inv(r[_toeplitz_index(p + 1)])
     except np.linalg.LinAlgError:
-        return a, np.zeros_like(ok)
+        return _toeplitz_solve(r[None, :]), np.zeros_like(ok)
+    # the LPC start: T a = err e_0, so a is the first column of T^-1 scaled to a[0] = 1
+    a = (tinv[:, 0] / tinv[0, 0])[None, :]
+    if not (r[0] > 0 and np.isfinite(a).all()):
+        return _toeplitz_solve(r[None, :]), np.zeros_like(ok)
     g = (e.T * wl[:, None]) @ tinv.T                                 # (M', p+1) complex
     av = a[0]
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):

@@ -510,8 +510,11 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
     a, b = max(lo, base), min(hi, base + len(x))
     if b > a:
         seg[a - lo: b - lo] = x[a - base: b - base]
-    view = np.lib.stride_tricks.sliding_window_view(seg, plan.n_pitch + 1)
-    rows = view[starts - lo - plan.ext - 1 + 0]          # (n_k, n_pitch + 1), row start = frame start - ext - 1
+    if n_k == 1:
+        rows = seg[None, :]                               # seg is exactly the one row
+    else:
+        view = np.lib.stride_tricks.sliding_window_view(seg, plan.n_pitch + 1)
+        rows = view[starts - lo - plan.ext - 1]           # (n_k, n_pitch + 1), row start = frame start - ext - 1
     formant_rows = rows[:, plan.ext: plan.ext + plan.n + 1]  # one extra sample before the frame
     if pitch:
         out["level_db"] = frame_level_db(formant_rows[:, 1:])
@@ -568,6 +571,30 @@ def _confidence(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: np.ndarray,
         c = np.sqrt(c_bw * c_stab) * c_ap * c_lv * c_f3
     ok = np.isfinite(f[:, 0]) & np.isfinite(f[:, 1])
     return np.where(ok, np.clip(c, 0.0, 1.0), 0.0)
+
+
+def _confidence_one(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: float, level_db: float,
+                    floor_db: float) -> float:
+    """:func:`_confidence` of one frame on Python floats (the streaming case)."""
+    f1, f2, f3 = float(f[0]), float(f[1]), float(f[2])
+    if not (math.isfinite(f1) and math.isfinite(f2)):
+        return 0.0
+    b1, b2 = float(b[0]), float(b[1])
+    b1 = b1 if math.isfinite(b1) else 1000.0
+    b2 = b2 if math.isfinite(b2) else 1000.0
+    c_bw = math.exp(-((b1 + b2) / 2.0) / 400.0)
+    dev = 0.0
+    for fi, ri in ((f1, float(raw[0])), (f2, float(raw[1]))):
+        q = fi / ri if ri != 0 else math.inf
+        d = abs(math.log(q)) if (math.isfinite(q) and q > 0) else math.nan
+        dev += d if math.isfinite(d) else 1.0
+    c_stab = math.exp(-dev / 0.1)
+    ap = 1.0 if math.isnan(aper) else float(aper)
+    c_ap = min(max(1.0 - ap / 0.45, 0.0), 1.0)
+    c_lv = min(max((float(level_db) - floor_db) / 20.0, 0.0), 1.0)
+    c_f3 = 1.0 if math.isfinite(f3) else 0.8
+    c = math.sqrt(c_bw * c_stab) * c_ap * c_lv * c_f3
+    return min(max(c, 0.0), 1.0) if math.isfinite(c) else 0.0
 
 
 # ---------------------------------------------------------------------------
@@ -1001,8 +1028,7 @@ class StreamingAnalyzer:
             out_f = self._smoother.step(med)
             self._prev_raw = raw_f
             self._gap = 0
-            conf = float(_confidence(out_f[None, :], raw_b[None, :], raw_f[None, :], np.array([rec["aper"]]),
-                                     np.array([rec["level"]]), s.voicing_floor_db)[0])
+            conf = _confidence_one(out_f, raw_b, raw_f, rec["aper"], rec["level"], s.voicing_floor_db)
             out_b = raw_b
             self._last_out = {"f": out_f, "b": out_b}
         else:
