@@ -47,9 +47,12 @@ median F0 of voiced frames: below 165 Hz adult_male, below 250 Hz
 adult_female, else child. Offline the whole file's voiced frames are used.
 Causally, the analyser starts as adult_female and settles once ``auto_settle_s``
 (0.5 s) of voiced frames has been seen, then keeps that voice for the rest of
-the stream; until then it runs the candidate voices side by side so the switch
-needs no re-analysis (the decision is made at a fixed frame, so it is the same
-for every block split).
+the stream; until then the other candidate voices only resample and keep
+their samples, so the switch needs no re-analysis (the decision is made at a
+fixed frame, so it is the same for every block split). Once settled on
+another voice, its chain measures the formants with the F0 of the primary
+(adult_female) chain, which also gives level and voicing; offline ``auto``
+does the same with the F0 of the first pass.
 
 Harmonic attraction (high F0): plain autocorrelation LPC is pulled towards
 harmonics when F0 is high (the spectrum is sampled only every F0 Hz). The
@@ -489,8 +492,12 @@ def relative_level(level_db: np.ndarray, s: AnalysisSettings, peak_db: float | N
 
 
 def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np.ndarray, *,
-              pitch: bool, formants: bool = True) -> dict[str, np.ndarray]:
+              pitch: bool, formants: bool = True, f0_hz: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """Measures of frames ``ks`` from samples ``x`` whose first element is sample ``base``.
+
+    ``f0_hz`` (without ``pitch``): F0 of these frames measured by another
+    chain (the primary one of an auto voice), used for DAP instead of running
+    YIN again at this plan's rate.
 
     Samples outside ``x`` read as zero. Returns level_db, f0_hz, aper (when
     ``pitch``), cand_f, cand_b (n, order // 2).
@@ -523,10 +530,12 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
         return out
     cond = framing.condition_frames(formant_rows, coef=plan.coef, window=plan.taper)
     if s.method in ("dap", "hybrid"):
-        if "f0_hz" not in out:
-            f0, _ = _pitch(rows[:, 1:], plan, s)
-        else:
+        if "f0_hz" in out:
             f0 = out["f0_hz"]
+        elif f0_hz is not None:
+            f0 = np.asarray(f0_hz, dtype=np.float64)
+        else:
+            f0, _ = _pitch(rows[:, 1:], plan, s)
         use = np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
         sel = np.flatnonzero(use)
         # autocorrelation LPC only where DAP does not replace it
@@ -669,7 +678,8 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
             warns += [m for m in w if m not in warns]
             xb = resample(x, in_rate_hz=rate, out_rate_hz=fplan.rate_hz)
             n2 = framing.frame_count(len(xb), frame_len=fplan.n, hop=fplan.hop)
-            f2 = _features(fplan, s, xb, 0, np.arange(min(n2, n_frames)), pitch=False)
+            m2 = min(n2, n_frames)
+            f2 = _features(fplan, s, xb, 0, np.arange(m2), pitch=False, f0_hz=feat["f0_hz"][:m2])
             k2 = fplan.order // 2
             cand_f = np.full((n_frames, k2), np.nan)
             cand_b = np.full((n_frames, k2), np.nan)
@@ -744,6 +754,7 @@ class _ChainStream:
         self.pitch = pitch
         self.formants = True     # False: F0 and level only (primary chain of a settled auto voice)
         self.idle = False        # True: keep samples from frame k on but measure nothing (unsettled auto voice)
+        self.lazy = False        # True: frames measured on request with another chain's F0 (settled auto voice)
         self.rs = StreamResampler(input_rate, plan.rate_hz)
         self.buf = np.zeros(0)
         self.base = 0            # absolute analysis-rate index of buf[0]
@@ -759,26 +770,42 @@ class _ChainStream:
     def _frames_ready(self) -> list[dict]:
         out = []
         p = self.plan
-        while not self.idle:
-            start = self.k * p.hop
-            if self.total is not None:
-                if start + p.n > self.total:
-                    break
-            elif start + p.need_after > self.n_a:
-                break
+        while not (self.idle or self.lazy) and self.available(self.k):
             f = _features(p, self.s, self.buf, self.base, np.array([self.k]), pitch=self.pitch,
                           formants=self.formants)
             item = {key: v[0] for key, v in f.items()}
             item["k"] = self.k
             out.append(item)
             self.k += 1
+        self._trim()
+        return out
+
+    def available(self, k: int) -> bool:
+        """Whether frame k can be measured from the samples received so far."""
+        p = self.plan
+        start = k * p.hop
+        if self.total is not None:
+            return start + p.n <= self.total
+        return start + p.need_after <= self.n_a
+
+    def measure(self, k: int, f0_hz: float) -> dict:
+        """Lazy mode: candidates of frame k (>= self.k, available) with F0 from elsewhere."""
+        f = _features(self.plan, self.s, self.buf, self.base, np.array([k]), pitch=False,
+                      f0_hz=np.array([f0_hz]))
+        item = {key: v[0] for key, v in f.items()}
+        item["k"] = k
+        self.k = k + 1
+        self._trim()
+        return item
+
+    def _trim(self) -> None:
         # drop samples no longer needed
+        p = self.plan
         keep_from = self.k * p.hop - p.ext - 1
         if keep_from > self.base:
             cut = min(keep_from - self.base, len(self.buf))
             self.buf = self.buf[cut:]
             self.base += cut
-        return out
 
     def push(self, x: np.ndarray) -> list[dict]:
         self._append(self.rs.process(x))
@@ -940,11 +967,17 @@ class StreamingAnalyzer:
             prim = self._pending[self.primary]
             if k not in prim:
                 break
-            act = self._pending[self.active]
-            if k not in act and not final:
-                break                      # the active voice has not measured frame k yet
-            p = prim.pop(k)
-            cand = p if self.active == self.primary else act.pop(k, None)
+            if self.active == self.primary:
+                p = prim.pop(k)
+                cand = p
+            else:
+                # settled on another voice: its chain measures frame k with the primary's F0
+                ch = self.chains[self.active]
+                avail = ch.available(k)
+                if not avail and not final:
+                    break                  # the active voice's samples for frame k are not in yet
+                p = prim.pop(k)
+                cand = ch.measure(k, float(p["f0_hz"])) if avail else None
             for v, d in self._pending.items():
                 if v not in (self.primary, self.active):
                     d.pop(k, None)
@@ -1000,9 +1033,8 @@ class StreamingAnalyzer:
             self.active = voice
             ch = self.chains[voice]
             ch.idle = False
+            ch.lazy = True
             ch.k = k + 1
-            for item in ch._frames_ready():
-                self._pending[voice][item["k"]] = item
         # stop measuring the voices not chosen (the primary keeps F0 and level)
         for v in list(self.chains):
             if v not in (self.primary, self.active):
