@@ -85,7 +85,7 @@ import numpy as np
 from livevowel.dsp import framing
 from livevowel.dsp.dap import dap, harmonic_powers
 from livevowel.dsp.lpc import METHODS as LPC_METHODS
-from livevowel.dsp.lpc import formant_candidates, lpc
+from livevowel.dsp.lpc import _companion, formant_candidates, lpc
 from livevowel.dsp.pitch import frame_level_db, voicing_hysteresis, yin, yin_frame_length
 from livevowel.dsp.resample import StreamResampler, resample
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
@@ -460,6 +460,15 @@ def _pitch(rows: np.ndarray, plan: _Plan, s: AnalysisSettings) -> tuple[np.ndarr
     f0, ap, dp = yin(rows, rate_hz=plan.rate_hz, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max,
                      threshold=s.yin_threshold, fallback=True, return_cmnd=True)
     tau_max = dp.shape[1] - 2
+    if len(f0) == 1:
+        f, a = float(f0[0]), float(ap[0])
+        if math.isfinite(f):
+            tau2 = int(round(2.0 * plan.rate_hz / f))
+            if 0 <= tau2 <= tau_max:
+                d2 = float(dp[0, tau2])
+                if a > 0.03 and d2 < 0.5 * a:
+                    return np.array([f / 2.0]), np.array([d2])
+        return f0, ap
     ok = np.isfinite(f0)
     if ok.any():
         tau2 = np.where(ok, np.rint(2.0 * plan.rate_hz / np.where(ok, f0, 1.0)), 0).astype(int)
@@ -559,8 +568,12 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
             coeffs[g] = a_dap
     else:
         coeffs = lpc(cond, order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)
-    cf, cb = formant_candidates(coeffs, rate_hz=plan.rate_hz, min_hz=plan.min_hz,
-                                max_hz=plan.rate_hz / 2.0 - plan.min_hz, max_bandwidth_hz=s.max_bandwidth_hz)
+    if n_k == 1:
+        cf, cb = _candidates_one(coeffs[0], plan.rate_hz, plan.min_hz, plan.rate_hz / 2.0 - plan.min_hz,
+                                 s.max_bandwidth_hz)
+    else:
+        cf, cb = formant_candidates(coeffs, rate_hz=plan.rate_hz, min_hz=plan.min_hz,
+                                    max_hz=plan.rate_hz / 2.0 - plan.min_hz, max_bandwidth_hz=s.max_bandwidth_hz)
     out["cand_f"], out["cand_b"] = cf, cb
     return out
 
@@ -580,6 +593,37 @@ def _confidence(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: np.ndarray,
         c = np.sqrt(c_bw * c_stab) * c_ap * c_lv * c_f3
     ok = np.isfinite(f[:, 0]) & np.isfinite(f[:, 1])
     return np.where(ok, np.clip(c, 0.0, 1.0), 0.0)
+
+
+def _candidates_one(a: np.ndarray, rate: float, min_hz: float, max_hz: float,
+                    max_bw_hz: float | None) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`~livevowel.dsp.lpc.formant_candidates` of one inverse filter (the streaming case):
+    the companion-matrix eigenvalues, then the few roots in Python floats."""
+    p = len(a) - 1
+    k_out = p // 2
+    f_out = np.full((1, k_out), np.nan)
+    b_out = np.full((1, k_out), np.nan)
+    if not (np.isfinite(a).all() and a[0] != 0):
+        return f_out, b_out
+    roots = np.linalg.eigvals(_companion(a[None, :]))[0].tolist()
+    found = []
+    fscale = rate / (2.0 * math.pi)
+    bscale = rate / math.pi
+    for z in roots:
+        if not z.imag > 1e-12:
+            continue
+        f = math.atan2(z.imag, z.real) * fscale
+        if not (min_hz <= f <= max_hz):
+            continue
+        bw = abs(math.log(max(abs(z), 1e-300))) * bscale
+        if max_bw_hz is not None and not bw <= max_bw_hz:
+            continue
+        found.append((f, bw))
+    found.sort()
+    for i, (f, bw) in enumerate(found[:k_out]):
+        f_out[0, i] = f
+        b_out[0, i] = bw
+    return f_out, b_out
 
 
 def _confidence_one(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: float, level_db: float,

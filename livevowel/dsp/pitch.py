@@ -262,6 +262,12 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     w = n - tau_max - 1
     d = _difference(x, tau_max + 1, w)
     dp = _cmnd(d)
+    if n_frames == 1:
+        f0, aper = _pick_one(d[0], dp[0], rate, tau_min, tau_max, float(threshold), fallback,
+                             None if skip_factor is None else float(skip_factor), float(skip_margin))
+        if return_cmnd:
+            return f0, aper, dp
+        return f0, aper
     sub = dp[:, tau_min: tau_max + 1]             # lags tau_min .. tau_max
     left = dp[:, tau_min - 1: tau_max]          # d'(tau - 1); tau_min >= 2
     right = dp[:, tau_min + 1: tau_max + 2]     # d'(tau + 1); d' has lags up to tau_max + 1
@@ -308,6 +314,61 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     if return_cmnd:
         return f0, aper, dp
     return f0, aper
+
+
+def _pick_one(d: np.ndarray, dp: np.ndarray, rate: float, tau_min: int, tau_max: int, threshold: float,
+              fallback: bool, skip_factor: float | None, skip_margin: float) -> tuple[np.ndarray, np.ndarray]:
+    """Steps 4-5 of :func:`yin` for one frame: the same rule on the few dips, in Python floats."""
+    sub = dp[tau_min: tau_max + 1]
+    left = dp[tau_min - 1: tau_max]
+    right = dp[tau_min + 1: tau_max + 2]
+    dips = np.flatnonzero((sub <= left) & (sub <= right)).tolist()
+    gmin = int(sub.argmin()) + tau_min
+    subl, leftl, rightl = sub.tolist(), left.tolist(), right.tolist()
+    best = -1
+    if skip_factor is None:
+        for i in dips:
+            if subl[i] < threshold:
+                best = i + tau_min
+                break
+    else:
+        depth = []
+        for i in dips:
+            lo, mid, hi = leftl[i], subl[i], rightl[i]
+            curv = lo - 2.0 * mid + hi
+            if curv > 0:
+                dep = mid - (lo - hi) ** 2 / (8.0 * curv)
+                depth.append(dep if dep > 0.0 else 0.0)
+            else:
+                depth.append(mid)
+        deepest = min(depth) if depth else math.inf
+        limit = skip_factor * deepest + skip_margin
+        for i, dep in zip(dips, depth):
+            if subl[i] < threshold and dep <= limit:
+                best = i + tau_min
+                break
+        if best < 0 and fallback:
+            for i, dep in zip(dips, depth):
+                if dep <= deepest + skip_margin:
+                    best = i + tau_min
+                    break
+    found = best >= 0
+    if not found:
+        best = gmin
+        if fallback:
+            found = True
+    aper = float(dp[best])
+    y0, y1, y2 = float(d[best - 1]), float(d[best]), float(d[best + 1])
+    den = y0 - 2.0 * y1 + y2
+    shift = 0.5 * (y0 - y2) / den if den > 0 else 0.0
+    shift = min(max(shift, -1.0), 1.0)
+    silent = float(d.max()) <= 0
+    f0 = rate / (best + shift)
+    if not found or silent:
+        f0 = math.nan
+    if silent:
+        aper = 1.0
+    return np.array([f0]), np.array([aper])
 
 
 # ---------------------------------------------------------------------------
