@@ -26,7 +26,7 @@ CITED = {
     "gae-children": {"fleece": (452, 3081, 3702), "lot": (1002, 1688, 2950), "goose": (494, 1345, 2988)},
     # Deterding (1997), men, citation forms (from memory, low confidence).
     "ssbe-men": {"fleece": (280, 2249), "thought": (415, 828), "goose": (316, 1191), "start": (646, 1155)},
-    # Bradlow (1995), Spanish vowels of male talkers (from memory).
+    # Bradlow (1995), Spanish vowels of male speakers (from memory).
     "spanish-men": {"i": (286, 2147), "a": (638, 1353), "u": (322, 992)},
 }
 
