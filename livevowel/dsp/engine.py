@@ -799,6 +799,9 @@ class _ChainStream:
         self.formants = True     # False: F0 and level only (primary chain of a settled auto voice)
         self.idle = False        # True: keep samples from frame k on but measure nothing (unsettled auto voice)
         self.lazy = False        # True: frames measured on request with another chain's F0 (settled auto voice)
+        self._raw: list[np.ndarray] = []   # idle: input blocks not resampled yet (done in batches)
+        self._raw_n = 0
+        self._raw_limit = max(1, input_rate // 4)
         self.rs = StreamResampler(input_rate, plan.rate_hz)
         self.buf = np.zeros(0)
         self.base = 0            # absolute analysis-rate index of buf[0]
@@ -852,10 +855,27 @@ class _ChainStream:
             self.base += cut
 
     def push(self, x: np.ndarray) -> list[dict]:
+        if self.idle:
+            # nothing is measured yet: resample in batches of about 0.25 s (the
+            # resampler's output does not depend on how its input is split)
+            self._raw.append(x)
+            self._raw_n += len(x)
+            if self._raw_n >= self._raw_limit:
+                self.drain()
+            return []
         self._append(self.rs.process(x))
         return self._frames_ready()
 
+    def drain(self) -> None:
+        """Resample the input held back while idle."""
+        if self._raw:
+            x = np.concatenate(self._raw) if len(self._raw) > 1 else self._raw[0]
+            self._raw, self._raw_n = [], 0
+            self._append(self.rs.process(x))
+            self._trim()
+
     def finish(self) -> list[dict]:
+        self.drain()
         self._append(self.rs.flush())
         self.total = self.n_a
         return self._frames_ready()
@@ -1076,6 +1096,7 @@ class StreamingAnalyzer:
         if voice != self.active:
             self.active = voice
             ch = self.chains[voice]
+            ch.drain()
             ch.idle = False
             ch.lazy = True
             ch.k = k + 1
