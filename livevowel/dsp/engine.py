@@ -704,7 +704,8 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
     if n_frames == 0:
         warns.append(f"input of {len(x)} samples is shorter than one {1e3 * s.window_s:g} ms window; no frames")
     ks = np.arange(n_frames)
-    feat = _features(plan, s, xa, 0, ks, pitch=True)
+    # auto: the first pass measures F0 and level only; the formants follow on the chosen plan
+    feat = _features(plan, s, xa, 0, ks, pitch=True, formants=s.voice != "auto")
     gate_level, _ = relative_level(feat["level_db"], s, None)
     voiced, _ = voicing_hysteresis(feat["aper"], gate_level, on_threshold=s.voicing_on,
                                    off_threshold=s.voicing_off, floor_db=s.voicing_floor_db,
@@ -730,6 +731,9 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
             cand_f[: len(f2["cand_f"])] = f2["cand_f"]
             cand_b[: len(f2["cand_b"])] = f2["cand_b"]
             feat["cand_f"], feat["cand_b"] = cand_f, cand_b
+        else:
+            f2 = _features(plan, s, xa, 0, ks, pitch=False, f0_hz=feat["f0_hz"])
+            feat["cand_f"], feat["cand_b"] = f2["cand_f"], f2["cand_b"]
     times = framing.frame_times(n_frames, frame_len=plan.n, hop=plan.hop, rate_hz=plan.rate_hz)
     track = _offline_track(feat, voiced, times, fplan, s)
     # clipping note
