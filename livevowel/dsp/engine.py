@@ -805,7 +805,7 @@ class _ChainStream:
         self.lazy = False        # True: frames measured on request with another chain's F0 (settled auto voice)
         self._raw: list[np.ndarray] = []   # idle: input blocks not resampled yet (done in batches)
         self._raw_n = 0
-        self._raw_limit = max(1, input_rate // 4)
+        self._raw_limit = max(1, input_rate // 20)
         self.rs = StreamResampler(input_rate, plan.rate_hz)
         self.buf = np.zeros(0)
         self.base = 0            # absolute analysis-rate index of buf[0]
@@ -860,7 +860,7 @@ class _ChainStream:
 
     def push(self, x: np.ndarray) -> list[dict]:
         if self.idle:
-            # nothing is measured yet: resample in batches of about 0.25 s (the
+            # nothing is measured yet: resample in batches of about 50 ms (the
             # resampler's output does not depend on how its input is split)
             self._raw.append(x)
             self._raw_n += len(x)
