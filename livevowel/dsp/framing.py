@@ -31,11 +31,14 @@ discrete Fourier transform. *Proc. IEEE* 66(1), 51-83 (window side lobes).
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from scipy.signal import get_window
 
 __all__ = [
     "WINDOWS",
+    "as_frames",
     "frame_count",
     "frame_times",
     "frame_signal",
@@ -137,3 +140,24 @@ def condition_frames(frames: np.ndarray, *, coef: float, window: np.ndarray) -> 
     x = frames - frames.mean(axis=-1, keepdims=True)
     y = x[:, 1:] - coef * x[:, :-1]
     return y * window
+
+
+def as_frames(frames, name: str = "frames") -> np.ndarray:
+    """Frames as a float64 array of shape ``(n_frames, N)``; one frame ``(N,)`` becomes ``(1, N)``.
+
+    Raises
+    ------
+    ValueError
+        For non-numeric data, more than two dimensions, or NaN/infinite samples.
+    """
+    x = np.asarray(frames)
+    if x.dtype.kind not in "fiu":
+        raise ValueError(f"{name} must be a real numeric array, got dtype {x.dtype}")
+    x = x.astype(np.float64, copy=False)
+    if x.ndim == 1:
+        x = x[np.newaxis, :]
+    if x.ndim != 2:
+        raise ValueError(f"{name} must have shape (n_frames, N), got {x.shape}")
+    if not math.isfinite(float(np.add.reduce(x, axis=None))) and not np.isfinite(x).all():
+        raise ValueError(f"{name} contains NaN or infinite samples")
+    return x

@@ -45,6 +45,8 @@ import math
 
 import numpy as np
 
+from livevowel.dsp.framing import as_frames as _frames_2d
+
 __all__ = [
     "autocorrelation",
     "lag_window",
@@ -63,21 +65,7 @@ METHODS: tuple[str, ...] = ("autocorrelation", "burg", "weighted")
 
 
 # ---------------------------------------------------------------------------
-# validation helpers
-
-
-def _frames_2d(frames, name: str = "frames") -> np.ndarray:
-    x = np.asarray(frames)
-    if x.dtype.kind not in "fiu":
-        raise ValueError(f"{name} must be a real numeric array, got dtype {x.dtype}")
-    x = x.astype(np.float64, copy=False)
-    if x.ndim == 1:
-        x = x[np.newaxis, :]
-    if x.ndim != 2:
-        raise ValueError(f"{name} must have shape (n_frames, N), got {x.shape}")
-    if not math.isfinite(float(np.add.reduce(x, axis=None))) and not np.isfinite(x).all():
-        raise ValueError(f"{name} contains NaN or infinite samples")
-    return x
+# validation helpers (frames are checked by livevowel.dsp.framing.as_frames)
 
 
 def _check_order(order, n_samples: int) -> int:

@@ -13,6 +13,8 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.fft
 
+from livevowel.dsp.framing import as_frames as _frames_2d
+
 __all__ = [
     "yin",
     "yin_frame_length",
@@ -28,18 +30,6 @@ __all__ = [
 LEVEL_FLOOR_DB = -120.0
 
 
-def _frames_2d(frames, name: str = "frames") -> np.ndarray:
-    x = np.asarray(frames)
-    if x.dtype.kind not in "fiu":
-        raise ValueError(f"{name} must be a real numeric array, got dtype {x.dtype}")
-    x = x.astype(np.float64, copy=False)
-    if x.ndim == 1:
-        x = x[np.newaxis, :]
-    if x.ndim != 2:
-        raise ValueError(f"{name} must have shape (n_frames, N), got {x.shape}")
-    if not math.isfinite(float(np.add.reduce(x, axis=None))) and not np.isfinite(x).all():
-        raise ValueError(f"{name} contains NaN or infinite samples")
-    return x
 
 
 def frame_level_db(frames) -> np.ndarray:
