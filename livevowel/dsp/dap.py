@@ -119,7 +119,6 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
     df = rate_hz / nfft
     f0 = np.asarray(f0_hz, dtype=np.float64)
     ok = np.isfinite(f0) & (f0 > 0)
-    f0s = np.where(ok, f0, np.inf)
     counts = np.where(ok, np.floor(max_hz / np.where(ok, f0, 1.0)), 0).astype(int)
     m = int(counts.max()) if n else 0
     if m == 0:

@@ -41,7 +41,6 @@ with ``w > 0`` gives frequency ``w * rate / (2 pi)`` and 3-dB bandwidth
 from __future__ import annotations
 
 import functools
-import math
 
 import numpy as np
 

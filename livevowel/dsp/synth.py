@@ -698,7 +698,6 @@ class Truth:
         inside = (chunk >= 0) & voiced
         if np.any(inside):
             c = chunk[inside]
-            lo, hi = int(c.min()), int(c.max()) + 1
             uniq = np.unique(c // _TABLE_BATCH)
             batches = [p._batch(int(u)) for u in uniq]
             pos = np.searchsorted(uniq, c // _TABLE_BATCH) * _TABLE_BATCH + c % _TABLE_BATCH

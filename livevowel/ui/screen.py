@@ -431,7 +431,7 @@ class PracticeScreen:
             self._build_static(size)
             self._static_key = key
         surface.blit(self._static, (0, 0))
-        lay, plane, F, u = self._layout, self._plane, self.fonts, self._layout.u
+        lay, plane, u = self._layout, self._plane, self._layout.u
         pr = lay.plot
         surface.set_clip(pr)
         # hit pulses: an expanding ring from the region centre
