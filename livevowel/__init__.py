@@ -10,7 +10,12 @@ Layers, bottom to top:
 * thin shells -- the pygame screen and the command line.
 """
 
+import os as _os
+
 __version__ = "0.1.0"
+
+# pygame prints a greeting on import unless told not to; livevowel's output is its own.
+_os.environ.setdefault("PYGAME_HIDE_SUPPORT_PROMPT", "1")
 
 CAUTION = (
     "livevowel is a practice and feedback tool, not a diagnostic or medical device. "

@@ -9,8 +9,3 @@
 
 Hit and hold rules live in :mod:`livevowel.feedback` (no pygame).
 """
-
-import os as _os
-
-# pygame prints a greeting on import unless told not to; livevowel's output is its own.
-_os.environ.setdefault("PYGAME_HIDE_SUPPORT_PROMPT", "1")
