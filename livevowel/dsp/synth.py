@@ -53,7 +53,10 @@ harmonics: about -37 dB at 8 kHz (F0 120 Hz; -33 dB at 480 Hz), -58 dB at
 (no parallel branch, no nasal pole-zero pair, no higher-pole correction), so
 above F5 the spectrum falls off. Aspiration is steady over each period (not
 gated by the glottal opening). F0 is limited to rate/10 (and 1000 Hz),
-formants to 0.45 x rate.
+formants to 0.45 x rate. An instant formant jump (``transition_s=0``) while
+the resonators still ring can give a loud transient (seen: peak 20, about
+100 times the usual level, after F2 jumped from 433 to 2554 Hz within one
+1 ms update at 8 kHz): give changes a glide of a few milliseconds.
 """
 
 from __future__ import annotations
