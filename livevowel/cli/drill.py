@@ -230,8 +230,14 @@ def run_drill(args: argparse.Namespace) -> int:
     except KeyboardInterrupt:
         interrupted = True
         summary = session.finish()
-    print_summary(summary, session=session, recorder=rec, session_id=extra["session_id"], interrupted=interrupted)
-    rec.close()
+    return end_session(summary, session=session, recorder=rec, session_id=extra["session_id"],
+                       interrupted=interrupted)
+
+
+def end_session(summary, *, session, recorder, session_id: int, interrupted: bool) -> int:
+    """Print the summary, close the record; the exit status (130 after Ctrl-C)."""
+    print_summary(summary, session=session, recorder=recorder, session_id=session_id, interrupted=interrupted)
+    recorder.close()
     return 130 if interrupted else 0
 
 
@@ -297,10 +303,8 @@ def run_drill_screen(args: argparse.Namespace, *, settings, options, size=(1280,
                  keep_open=False)
     except KeyboardInterrupt:
         interrupted = True
-    summary = session.finish()
-    print_summary(summary, session=session, recorder=rec, session_id=extra["session_id"], interrupted=interrupted)
-    rec.close()
-    return 130 if interrupted else 0
+    return end_session(session.finish(), session=session, recorder=rec, session_id=extra["session_id"],
+                       interrupted=interrupted)
 
 
 def run_practice_drill(args: argparse.Namespace) -> int:

@@ -231,12 +231,13 @@ class AnalysisSettings:
     smoother_alpha: float = 0.4
     smoother_jump: float = 0.15
     auto_settle_s: float = 0.5
-    w_freq: float = 1.0
-    w_bw: float = 1.0
-    w_harm: float = 0.5
-    w_trans: float = 6.0
-    miss_cost: float = 2.0
-    w_skip: float = 1.5
+    # tracking weights: defaults are the tracker's own (one place to change them)
+    w_freq: float = TrackerCosts.w_freq
+    w_bw: float = TrackerCosts.w_bw
+    w_harm: float = TrackerCosts.w_harm
+    w_trans: float = TrackerCosts.w_trans
+    miss_cost: float = TrackerCosts.miss_cost
+    w_skip: float = TrackerCosts.w_skip
 
     def __post_init__(self) -> None:
         def bad(msg: str) -> None:
