@@ -19,8 +19,10 @@ fixed-point iteration of the paper: start from the autocorrelation-LPC
 solution of ``R``, then repeatedly solve the Toeplitz system with the
 right-hand side from the current model and renormalise ``a[0] = 1``.
 
-Everything is batched over frames; frames have different harmonic counts,
-handled by a 0/1 weight per harmonic slot.
+Each frame is one call of a compiled kernel (:mod:`livevowel.dsp._jit`);
+batches loop over frames and pad to the largest harmonic count, the
+padding slots having weight 0. Live and offline analysis therefore run the
+same arithmetic.
 
 References
 ----------
@@ -30,12 +32,11 @@ Trans. Signal Processing* 39(2), 411-423.
 
 from __future__ import annotations
 
-import functools
 import math
 
 import numpy as np
 
-from livevowel.dsp.lpc import _toeplitz_index, _toeplitz_solve
+from livevowel.dsp._jit import jit
 
 __all__ = ["harmonic_powers", "dap"]
 
@@ -64,13 +65,6 @@ def _window_power(window: np.ndarray, nfft: int) -> np.ndarray:
             _WINDOW_POWER.clear()
         _WINDOW_POWER[key] = got
     return got
-
-
-@functools.lru_cache(maxsize=16)
-def _bin_index(n: int) -> np.ndarray:
-    out = np.arange(n, dtype=np.float64)
-    out.setflags(write=False)
-    return out
 
 
 def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, max_hz: float,
@@ -110,155 +104,133 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
         real harmonic, 0 for padding (whose power is 1 and frequency 0).
     """
     frames = np.asarray(frames, dtype=np.float64)
+    if frames.ndim != 2:
+        raise ValueError(f"frames must have shape (n, N), got {frames.shape}")
     n, big_n = frames.shape
-    nfft = max(nfft, 1 << int(np.ceil(np.log2(big_n))))
-    if n == 1:
-        return _harmonic_powers_one(frames[0], float(np.asarray(f0_hz, dtype=np.float64).reshape(-1)[0]),
-                                    float(rate_hz), float(max_hz), nfft, float(search), noise_floor, window)
-    spec = np.abs(np.fft.rfft(frames, nfft, axis=1)) ** 2
-    df = rate_hz / nfft
-    f0 = np.asarray(f0_hz, dtype=np.float64)
+    nfft = max(int(nfft), 1 << int(np.ceil(np.log2(max(big_n, 1)))))
+    f0 = np.broadcast_to(np.asarray(f0_hz, dtype=np.float64).reshape(-1), (n,))
+    rate, top_hz = float(rate_hz), float(max_hz)
     ok = np.isfinite(f0) & (f0 > 0)
-    counts = np.where(ok, np.floor(max_hz / np.where(ok, f0, 1.0)), 0).astype(int)
+    counts = np.where(ok, np.floor(top_hz / np.where(ok, f0, 1.0)), 0).astype(np.int64)
     m = int(counts.max()) if n else 0
     if m == 0:
         z = np.zeros((n, 1))
         return z, np.ones((n, 1)), z
-    k = np.arange(1, m + 1)
-    centre = (k[None, :] * np.where(ok, f0, 0.0)[:, None]) / df          # bins
-    half = np.maximum(1.0, search * np.where(ok, f0, 0.0) / df)[:, None]
-    width = int(np.ceil(np.nanmax(np.where(ok, search * f0 / df, 1.0)))) + 1
-    offs = np.arange(-width, width + 1)
-    bins = np.rint(centre)[:, :, None] + offs[None, None, :]
-    inside = (np.abs(bins - centre[:, :, None]) <= half[:, :, None]) & (bins >= 1) & (bins < spec.shape[1] - 1)
-    b_idx = np.clip(bins, 1, spec.shape[1] - 2).astype(int)
-    rows = np.arange(n)[:, None, None]
-    vals = np.where(inside, spec[rows, b_idx], -np.inf)
-    j = np.argmax(vals, axis=2)
-    peak_bin = np.take_along_axis(b_idx, j[:, :, None], axis=2)[:, :, 0]
-    p0 = spec[np.arange(n)[:, None], peak_bin]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        lm = np.log(spec[np.arange(n)[:, None], peak_bin - 1] + 1e-300)
-        l0 = np.log(p0 + 1e-300)
-        lp = np.log(spec[np.arange(n)[:, None], peak_bin + 1] + 1e-300)
-        den = lm - 2 * l0 + lp
-        shift = np.where(den < 0, 0.5 * (lm - lp) / np.where(den < 0, den, -1.0), 0.0)
-    shift = np.clip(shift, -0.5, 0.5)
-    freq = (peak_bin + shift) * df
-    snr_w = np.ones_like(p0)
-    if noise_floor:
-        # mean power in the middle of the valleys either side of each harmonic
-        # (noise plus leakage; with the Gaussian taper leakage there is about
-        # -48 dB at F0 = 300 Hz). Harmonics close to that floor are down-weighted
-        # rather than trusted: weight = local SNR / 12 dB, between 0.05 and 1.
-        vc = ((k[None, :] + 0.5) * np.where(ok, f0, 0.0)[:, None]) / df
-        vhalf = np.maximum(1.0, 0.15 * np.where(ok, f0, 0.0) / df)[:, None]
-        vb = np.rint(vc)[:, :, None] + offs[None, None, :]
-        vin = (np.abs(vb - vc[:, :, None]) <= vhalf[:, :, None]) & (vb >= 0) & (vb < spec.shape[1])
-        vidx = np.clip(vb, 0, spec.shape[1] - 1).astype(int)
-        vv = np.where(vin, spec[rows, vidx], 0.0)
-        valley = vv.sum(axis=2) / np.maximum(vin.sum(axis=2), 1)
-        if window is not None:
-            # remove what the taper leaks into the valley from the two
-            # harmonics beside it (matters at low F0, where valleys are shallow)
-            wspec = _window_power(np.asarray(window, dtype=np.float64), nfft)
-            half_bins = 0.5 * np.where(ok, f0, 0.0) / df
-            leak = np.interp(half_bins, _bin_index(len(wspec)), wspec)[:, None]
-            nxt = np.concatenate([p0[:, 1:], p0[:, -1:]], axis=1)
-            valley = np.maximum(valley - leak * (p0 + nxt), 0.0)
-        below = np.concatenate([valley[:, :1], valley[:, :-1]], axis=1)   # valley under the harmonic
-        noise = 0.5 * (valley + below)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            snr_db = 10.0 * np.log10(p0 / np.maximum(noise, 1e-300))
-        snr_db[np.isnan(snr_db)] = 0.0
-        clean = np.maximum(p0 - noise, 0.1 * p0)
-        # noise-dominated harmonics: the voice there is somewhere below the
-        # noise; assume it is LOST_BELOW_NOISE_DB under the local noise floor
-        # (but not below FLOOR_DB re the strongest harmonic) and give it little
-        # weight, rather than fitting the noise as a resonance
-        top = np.max(np.where(k[None, :] <= counts[:, None], clean, 0.0), axis=1, keepdims=True)
-        lost = snr_db < NOISE_DROP_DB
-        guess = np.maximum(noise * 10.0 ** (-LOST_BELOW_NOISE_DB / 10.0), top * 10.0 ** (FLOOR_DB / 10.0))
-        # only the run of lost harmonics above the last reliable one (the band
-        # where the voice has sunk into the noise) gets the guess; a lost
-        # harmonic among reliable ones keeps its noise-subtracted power
-        kk = np.broadcast_to(k[None, :], lost.shape)
-        last_ok = np.max(np.where(~lost & (kk <= counts[:, None]), kk, 0), axis=1, keepdims=True)
-        sunk = lost & (kk > last_ok)
-        p0 = np.where(sunk, np.minimum(p0, guess),
-                      np.where(lost, np.maximum(p0 - noise, top * 10.0 ** (FLOOR_DB / 10.0)), clean))
-        snr_w = np.where(lost, LOST_WEIGHT, np.clip(snr_db / 12.0, LOST_WEIGHT, 1.0))
-    weight = ((k[None, :] <= counts[:, None]) & (p0 > 0)).astype(np.float64) * snr_w
-    power = np.where(weight > 0, p0, 1.0)
-    freq = np.where(weight > 0, freq, 0.0)
+    spec = np.fft.rfft(frames, nfft, axis=1)
+    spec = spec.real * spec.real + spec.imag * spec.imag
+    wspec = _window_power(np.asarray(window, dtype=np.float64), nfft) if window is not None else _NO_WINDOW
+    freq = np.zeros((n, m))
+    power = np.ones((n, m))
+    weight = np.zeros((n, m))
+    for i in range(n):
+        if counts[i] > 0:
+            _harmonics_kernel(spec[i], float(f0[i]), rate / nfft, int(counts[i]), float(search), bool(noise_floor),
+                              wspec, freq[i], power[i], weight[i])
     return freq, power, weight
 
 
-def _harmonic_powers_one(frame: np.ndarray, f0: float, rate_hz: float, max_hz: float, nfft: int, search: float,
-                         noise_floor: bool, window: np.ndarray | None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """:func:`harmonic_powers` for one frame (the streaming case), same steps on 1-D arrays."""
-    if not (math.isfinite(f0) and f0 > 0) or math.floor(max_hz / f0) < 1:
-        z = np.zeros((1, 1))
-        return z, np.ones((1, 1)), z
-    spec = np.fft.rfft(frame, nfft)
-    spec = spec.real * spec.real + spec.imag * spec.imag
-    n_bins = len(spec)
-    df = rate_hz / nfft
-    m = int(math.floor(max_hz / f0))
-    k = np.arange(1, m + 1)
-    centre = k * (f0 / df)
+_NO_WINDOW = np.zeros(0)
+_NOISE_GUESS = 10.0 ** (-LOST_BELOW_NOISE_DB / 10.0)
+_FLOOR = 10.0 ** (FLOOR_DB / 10.0)
+
+
+@jit
+def _harmonics_kernel(spec, f0, df, m, search, noise_floor, wspec, freq, power, weight):  # pragma: no cover - compiled
+    """One frame of :func:`harmonic_powers`: fills ``freq, power, weight[:m]`` from the power spectrum ``spec``."""
+    n_bins = spec.shape[0]
     half = max(1.0, search * f0 / df)
     width = int(math.ceil(search * f0 / df)) + 1
-    offs = np.arange(-width, width + 1)
-    bins = np.rint(centre)[:, None] + offs
-    inside = (np.abs(bins - centre[:, None]) <= half) & (bins >= 1) & (bins < n_bins - 1)
-    b_idx = np.clip(bins, 1, n_bins - 2).astype(np.intp)
-    vals = np.where(inside, spec[b_idx], -np.inf)
-    peak_bin = b_idx[np.arange(m), vals.argmax(axis=1)]
-    p0 = spec[peak_bin]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        lm = np.log(spec[peak_bin - 1] + 1e-300)
-        l0 = np.log(p0 + 1e-300)
-        lp = np.log(spec[peak_bin + 1] + 1e-300)
-        den = lm - 2 * l0 + lp
-        neg = den < 0
-        shift = np.where(neg, 0.5 * (lm - lp) / np.where(neg, den, -1.0), 0.0)
-    np.clip(shift, -0.5, 0.5, out=shift)
-    freq = (peak_bin + shift) * df
-    snr_w = 1.0
+    p0 = np.empty(m)
+    fr = np.empty(m)
+    for j in range(m):
+        centre = (j + 1) * (f0 / df)
+        c = np.rint(centre)
+        best_val = -np.inf
+        best_bin = -1
+        for o in range(-width, width + 1):
+            b = c + o
+            bi = int(min(max(b, 1.0), n_bins - 2.0))
+            if best_bin < 0:
+                best_bin = bi                   # argmax of all -inf is the first slot
+            if abs(b - centre) <= half and b >= 1 and b < n_bins - 1:
+                v = spec[bi]
+                if v > best_val:
+                    best_val = v
+                    best_bin = bi
+        pk = spec[best_bin]
+        lm = math.log(spec[best_bin - 1] + 1e-300)
+        l0 = math.log(pk + 1e-300)
+        lp = math.log(spec[best_bin + 1] + 1e-300)
+        den = lm - 2.0 * l0 + lp
+        shift = 0.5 * (lm - lp) / den if den < 0 else 0.0
+        shift = min(max(shift, -0.5), 0.5)
+        fr[j] = (best_bin + shift) * df
+        p0[j] = pk
+    snr_w = np.ones(m)
     if noise_floor:
-        vc = (k + 0.5) * (f0 / df)
         vhalf = max(1.0, 0.15 * f0 / df)
-        vb = np.rint(vc)[:, None] + offs
-        vin = (np.abs(vb - vc[:, None]) <= vhalf) & (vb >= 0) & (vb < n_bins)
-        vidx = np.clip(vb, 0, n_bins - 1).astype(np.intp)
-        vv = np.where(vin, spec[vidx], 0.0)
-        valley = vv.sum(axis=1) / np.maximum(vin.sum(axis=1), 1)
-        if window is not None:
-            wspec = _window_power(np.asarray(window, dtype=np.float64), nfft)
-            leak = float(np.interp(0.5 * f0 / df, _bin_index(len(wspec)), wspec))
-            nxt = np.concatenate([p0[1:], p0[-1:]])
-            valley = np.maximum(valley - leak * (p0 + nxt), 0.0)
-        below = np.concatenate([valley[:1], valley[:-1]])
-        noise = 0.5 * (valley + below)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            snr_db = 10.0 * np.log10(p0 / np.maximum(noise, 1e-300))
-        snr_db[np.isnan(snr_db)] = 0.0
-        clean = np.maximum(p0 - noise, 0.1 * p0)
-        top = max(float(clean.max()), 0.0)
-        lost = snr_db < NOISE_DROP_DB
-        floor = top * 10.0 ** (FLOOR_DB / 10.0)
-        guess = np.maximum(noise * 10.0 ** (-LOST_BELOW_NOISE_DB / 10.0), floor)
-        reliable = np.flatnonzero(~lost)
-        last_ok = int(k[reliable[-1]]) if len(reliable) else 0
-        sunk = lost & (k > last_ok)
-        p0 = np.where(sunk, np.minimum(p0, guess), np.where(lost, np.maximum(p0 - noise, floor), clean))
-        snr_w = np.where(lost, LOST_WEIGHT, np.clip(snr_db / 12.0, LOST_WEIGHT, 1.0))
-    weight = (p0 > 0) * snr_w
-    live = weight > 0
-    power = np.where(live, p0, 1.0)
-    freq = np.where(live, freq, 0.0)
-    return freq[None, :], power[None, :], np.asarray(weight, dtype=np.float64)[None, :]
+        valley = np.empty(m)
+        for j in range(m):
+            vc = (j + 1.5) * (f0 / df)
+            c = np.rint(vc)
+            tot = 0.0
+            cnt = 0
+            for o in range(-width, width + 1):
+                b = c + o
+                if abs(b - vc) <= vhalf and b >= 0 and b < n_bins:
+                    tot += spec[int(b)]
+                    cnt += 1
+            valley[j] = tot / max(cnt, 1)
+        if wspec.shape[0] > 0:
+            # what the taper leaks into the valley from the two harmonics beside it
+            xq = 0.5 * f0 / df
+            last = wspec.shape[0] - 1
+            if xq >= last:
+                leak = wspec[last]
+            elif xq <= 0:
+                leak = wspec[0]
+            else:
+                i0 = int(math.floor(xq))
+                leak = (wspec[i0 + 1] - wspec[i0]) * (xq - i0) + wspec[i0]
+            for j in range(m):
+                nxt = p0[j + 1] if j + 1 < m else p0[m - 1]
+                valley[j] = max(valley[j] - leak * (p0[j] + nxt), 0.0)
+        noise = np.empty(m)
+        for j in range(m):
+            below = valley[j - 1] if j > 0 else valley[0]
+            noise[j] = 0.5 * (valley[j] + below)
+        snr_db = np.empty(m)
+        top = 0.0
+        last_ok = 0
+        for j in range(m):
+            s = 10.0 * math.log10(p0[j] / max(noise[j], 1e-300)) if p0[j] > 0 else -np.inf
+            if math.isnan(s):
+                s = 0.0
+            snr_db[j] = s
+            top = max(top, max(p0[j] - noise[j], 0.1 * p0[j]))
+            if not s < NOISE_DROP_DB:
+                last_ok = j + 1
+        floor = top * _FLOOR
+        for j in range(m):
+            clean = max(p0[j] - noise[j], 0.1 * p0[j])
+            if snr_db[j] < NOISE_DROP_DB:
+                if j + 1 > last_ok:             # sunk into the noise above the last reliable harmonic
+                    p0[j] = min(p0[j], max(noise[j] * _NOISE_GUESS, floor))
+                else:
+                    p0[j] = max(p0[j] - noise[j], floor)
+                snr_w[j] = LOST_WEIGHT
+            else:
+                p0[j] = clean
+                snr_w[j] = min(max(snr_db[j] / 12.0, LOST_WEIGHT), 1.0)
+    for j in range(m):
+        w = snr_w[j] if p0[j] > 0 else 0.0
+        weight[j] = w
+        if w > 0:
+            power[j] = p0[j]
+            freq[j] = fr[j]
+        else:
+            power[j] = 1.0
+            freq[j] = 0.0
 
 
 def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: int, rate_hz: float,
@@ -285,117 +257,181 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
         True where the iteration ran.
     """
     w = np.asarray(weight, dtype=np.float64)
+    if w.ndim != 2:
+        raise ValueError(f"weight must have shape (n, M), got {w.shape}")
     n, m = w.shape
+    f = np.broadcast_to(np.asarray(freq_hz, dtype=np.float64), (n, m))
+    pw = np.broadcast_to(np.asarray(power, dtype=np.float64), (n, m))
     p = int(order)
-    if n == 1:
-        return _dap_one(np.asarray(freq_hz, dtype=np.float64)[0], np.asarray(power, dtype=np.float64)[0], w[0],
-                        p, float(rate_hz), int(iterations))
-    omega = 2.0 * np.pi * np.asarray(freq_hz, dtype=np.float64) / rate_hz
-    cnt = w.sum(axis=1)
-    pw = np.asarray(power, dtype=np.float64) * w
-    scale = np.where(cnt > 0, pw.sum(axis=1) / np.maximum(cnt, 1), 1.0)
-    pw = pw / np.where(scale > 0, scale, 1.0)[:, None]
-    lags = np.arange(p + 1)
-    cosm = np.cos(lags[None, :, None] * omega[:, None, :])         # (n, p+1, M)
-    r = np.einsum("nkm,nm->nk", cosm, pw) / np.maximum(cnt, 1)[:, None]
-    r[:, 0] *= 1.0 + 1e-9
-    a = _toeplitz_solve(r)
-    ok = (w > 0).sum(axis=1) >= (p + 1) / 2.0
-    if not ok.any():
-        return a, ok
-    sel = np.flatnonzero(ok)
-    toe = r[sel][:, _toeplitz_index(p + 1)]                           # (n', p+1, p+1), fixed
-    try:
-        tinv = np.linalg.inv(toe)
-    except np.linalg.LinAlgError:
-        return a, np.zeros_like(ok)
-    ws = w[sel]
-    cos_s = cosm[sel]                                                # cos(k w_m), (n', p+1, M)
-    if len(sel) == 1:
-        # one frame (streaming): drop the padding slots, work on 1-D arrays
-        live1 = ws[0] > 0
-        cos_s = cos_s[:, :, live1]
-        ws = ws[:, live1]
-        om = omega[sel][:, live1]
-        live = None
-    else:
-        om = omega[sel]
-        live = np.concatenate([ws > 0, ws > 0], axis=1)[:, None, :]
-    sin_s = np.sin(lags[None, :, None] * om[:, None, :])             # sin(k w_m)
-    m_ = cos_s.shape[2]
-    fwd = np.concatenate([cos_s, -sin_s], axis=2)                    # a @ fwd = [Re A, Im A]
-    # h(-k) = 1/M sum_m w_m (Hr cos + Hi sin) with [Hr, Hi] = [ar, -ai] / |A|^2, and the
-    # next coefficients are tinv @ h (then a[0] = 1, so the 1/M factor drops out):
-    # fold the weights, the sign of Hi and tinv into one (2M, p+1) matrix per frame
-    ws2 = np.concatenate([ws, -ws], axis=1)[:, :, None]
-    back_t = np.concatenate([cos_s, sin_s], axis=2).transpose(0, 2, 1) * ws2     # (n', 2M, p+1)
-    gmat = back_t @ tinv.transpose(0, 2, 1)
-    aa = a[sel][:, None, :].copy()                                   # (n', 1, p+1)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        if live is None:
-            av, fw, gm = aa[0, 0], fwd[0], gmat[0]
-            for _ in range(int(iterations)):
-                ri = av @ fw                                         # [Re A, Im A] at the harmonics
-                sq = ri * ri
-                mag = sq[:m_] + sq[m_:]
-                c = (ri / np.concatenate([mag, mag])) @ gm
-                c0 = c[0]
-                if c0 != 0 and np.isfinite(c).all():
-                    av = c / c0
-            a[sel[0]] = av
-            return a, ok
-        for _ in range(int(iterations)):
-            # A(e^{jw}) = sum_k a_k e^{-jkw} = ar + j ai;  H = 1/A = (ar - j ai)/|A|^2
-            ri = aa @ fwd                                            # (n', 1, 2M)
-            sq = ri * ri
-            mag = sq[:, :, :m_] + sq[:, :, m_:]
-            q = np.where(live, ri / np.concatenate([mag, mag], axis=2), 0.0)
-            c = q @ gmat                                             # (n', 1, p+1)
-            nxt = c / c[:, :, :1]
-            good = np.isfinite(nxt).all(axis=2, keepdims=True)     # also False where c[0] == 0
-            aa = np.where(good, nxt, aa)
-    a[sel] = aa[:, 0, :]
+    if p < 1:
+        raise ValueError(f"order must be at least 1, got {order!r}")
+    a = np.empty((n, p + 1))
+    ok = np.zeros(n, dtype=bool)
+    for i in range(n):
+        ok[i] = _dap_kernel(np.ascontiguousarray(f[i]), np.ascontiguousarray(pw[i]), np.ascontiguousarray(w[i]),
+                            p, float(rate_hz), int(iterations), a[i])
     return a, ok
 
 
-def _dap_one(freq_hz: np.ndarray, power: np.ndarray, w: np.ndarray, p: int, rate_hz: float,
-             iterations: int) -> tuple[np.ndarray, np.ndarray]:
-    """:func:`dap` for one frame (the streaming case): the same equations on
-    1-D arrays, padding slots dropped, in complex form. With
-    ``E[k, m] = exp(-j k w_m)``: ``A_m = a @ E``, ``h = Re(E @ (w / A))`` and
-    the update ``c = T^-1 h``, folded into ``c = Re((1 / A) @ G)`` with
-    ``G = (w E^T) T^-T`` fixed (a[0] = 1 afterwards, so the 1/M factor drops out).
+@jit
+def _levinson(r, a):  # pragma: no cover - compiled
+    """Autocorrelation LPC of ``r`` (p + 1) into ``a`` (Levinson-Durbin); ``[1, 0, ...]`` for r[0] <= 0."""
+    p = r.shape[0] - 1
+    a[:] = 0.0
+    a[0] = 1.0
+    err = r[0]
+    if not err > 0:
+        return
+    tmp = np.empty(p + 1)
+    for i in range(1, p + 1):
+        acc = r[i]
+        for j in range(1, i):
+            acc += a[j] * r[i - j]
+        k = -acc / err
+        tmp[:i + 1] = a[:i + 1]
+        for j in range(1, i):
+            a[j] = tmp[j] + k * tmp[i - j]
+        a[i] = k
+        err *= 1.0 - k * k
+        if not err > 0:
+            return
+
+
+@jit
+def _invert(t, out):  # pragma: no cover - compiled
+    """Gauss-Jordan inverse with partial pivoting; False when (nearly) singular."""
+    n = t.shape[0]
+    a = t.copy()
+    out[:, :] = 0.0
+    for i in range(n):
+        out[i, i] = 1.0
+    scale = 0.0
+    for i in range(n):
+        scale = max(scale, abs(a[i, i]))
+    if not scale > 0:
+        return False
+    for c in range(n):
+        piv = c
+        for r in range(c + 1, n):
+            if abs(a[r, c]) > abs(a[piv, c]):
+                piv = r
+        if not abs(a[piv, c]) > 1e-14 * scale:
+            return False
+        if piv != c:
+            for k in range(n):
+                a[c, k], a[piv, k] = a[piv, k], a[c, k]
+                out[c, k], out[piv, k] = out[piv, k], out[c, k]
+        d = 1.0 / a[c, c]
+        for k in range(n):
+            a[c, k] *= d
+            out[c, k] *= d
+        for r in range(n):
+            if r != c:
+                fct = a[r, c]
+                if fct != 0.0:
+                    for k in range(n):
+                        a[r, k] -= fct * a[c, k]
+                        out[r, k] -= fct * out[c, k]
+    return True
+
+
+@jit
+def _dap_kernel(freq_hz, power, w, p, rate_hz, iterations, a):  # pragma: no cover - compiled
+    """One frame of :func:`dap` into ``a`` (p + 1); returns whether the iteration ran.
+
+    With ``E[k, m] = exp(-j k w_m)``: ``A_m = a @ E``, ``h = Re(E @ (w / A))``
+    and the update ``c = T^-1 h``, then ``a = c / c[0]`` (so the 1/M factor
+    of the paper drops out). ``T`` is the Toeplitz matrix of ``R``, fixed.
     """
-    live = w > 0
-    cnt = w.sum()
-    pw = power * w
-    scale = pw.sum() / max(cnt, 1) if cnt > 0 else 1.0
-    pw = pw / (scale if scale > 0 else 1.0)
-    wl = w[live]
-    om = 2.0 * np.pi * freq_hz[live] / rate_hz
-    e = np.exp(-1j * np.arange(p + 1)[:, None] * om[None, :])        # (p+1, M')
-    r = (e.real @ pw[live]) / max(cnt, 1)
+    m_all = w.shape[0]
+    live = 0
+    cnt = 0.0
+    psum = 0.0
+    for j in range(m_all):
+        if w[j] > 0:
+            live += 1
+        cnt += w[j]
+        psum += power[j] * w[j]
+    scale = psum / max(cnt, 1.0) if cnt > 0 else 1.0
+    if not scale > 0:
+        scale = 1.0
+    om = np.empty(live)
+    wl = np.empty(live)
+    pl = np.empty(live)
+    q = 0
+    for j in range(m_all):
+        if w[j] > 0:
+            om[q] = 2.0 * math.pi * freq_hz[j] / rate_hz
+            wl[q] = w[j]
+            pl[q] = power[j] * w[j] / scale
+            q += 1
+    cosm = np.empty((p + 1, live))
+    sinm = np.empty((p + 1, live))
+    r = np.zeros(p + 1)
+    for k in range(p + 1):
+        acc = 0.0
+        for j in range(live):
+            c = math.cos(k * om[j])
+            cosm[k, j] = c
+            sinm[k, j] = math.sin(k * om[j])
+            acc += c * pl[j]
+        r[k] = acc / max(cnt, 1.0)
     r[0] *= 1.0 + 1e-9
-    ok = np.array([int(live.sum()) >= (p + 1) / 2.0])
-    if not ok[0]:
-        return _toeplitz_solve(r[None, :]), ok
-    try:
-        tinv = np.linalg.inv(r[_toeplitz_index(p + 1)])
-    except np.linalg.LinAlgError:
-        return _toeplitz_solve(r[None, :]), np.zeros_like(ok)
+    if not live >= (p + 1) / 2.0:
+        _levinson(r, a)
+        return False
+    toe = np.empty((p + 1, p + 1))
+    for i in range(p + 1):
+        for j in range(p + 1):
+            toe[i, j] = r[abs(i - j)]
+    tinv = np.empty((p + 1, p + 1))
+    if not (r[0] > 0 and _invert(toe, tinv)):
+        _levinson(r, a)
+        return False
     # the LPC start: T a = err e_0, so a is the first column of T^-1 scaled to a[0] = 1
-    a = (tinv[:, 0] / tinv[0, 0])[None, :]
-    if not (r[0] > 0 and np.isfinite(a).all()):
-        return _toeplitz_solve(r[None, :]), np.zeros_like(ok)
-    g = (e.T * wl[:, None]) @ tinv.T                                 # (M', p+1) complex
-    av = a[0]
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        for _ in range(iterations):
-            c = (1.0 / (av @ e) @ g).real
-            c0 = c[0]
-            # a non-finite or degenerate update would repeat for ever: keep the last good one
-            if c0 == 0 or not math.isfinite(c @ c):
-                break
-            av = c / c0
-    a[0] = av
-    return a, ok
+    for k in range(p + 1):
+        a[k] = tinv[k, 0] / tinv[0, 0]
+    h = np.empty(p + 1)
+    c = np.empty(p + 1)
+    ar = np.empty(live)
+    ai = np.empty(live)
+    for _ in range(iterations):
+        for j in range(live):
+            sr = 0.0
+            si = 0.0
+            for k in range(p + 1):
+                sr += a[k] * cosm[k, j]
+                si -= a[k] * sinm[k, j]
+            mag = sr * sr + si * si
+            ar[j] = wl[j] * sr / mag
+            ai[j] = wl[j] * si / mag
+        # h_k = Re(sum_m w_m e_km / A_m), e = cos - j sin, w/A = w (ar - j ai) / |A|^2
+        for k in range(p + 1):
+            acc = 0.0
+            for j in range(live):
+                acc += ar[j] * cosm[k, j] - ai[j] * sinm[k, j]
+            h[k] = acc
+        good = True
+        for k in range(p + 1):
+            acc = 0.0
+            for j in range(p + 1):
+                acc += tinv[k, j] * h[j]
+            c[k] = acc
+            if not math.isfinite(acc):
+                good = False
+        # a non-finite or degenerate update would repeat for ever: keep the last good one
+        if not good or c[0] == 0.0:
+            break
+        for k in range(p + 1):
+            a[k] = c[k] / c[0]
+    return True
+
+
+@jit
+def _harmonic_dap_kernel(spec, f0, df, m, search, noise_floor, wspec, p, rate_hz, iterations, a):  # pragma: no cover
+    """:func:`harmonic_powers` then :func:`dap` for one frame's power spectrum, in one compiled call."""
+    freq = np.zeros(m)
+    power = np.ones(m)
+    weight = np.zeros(m)
+    _harmonics_kernel(spec, f0, df, m, search, noise_floor, wspec, freq, power, weight)
+    return _dap_kernel(freq, power, weight, p, rate_hz, iterations, a)

@@ -83,10 +83,12 @@ from typing import Any
 import numpy as np
 
 from livevowel.dsp import framing
-from livevowel.dsp.dap import dap, harmonic_powers
+from livevowel.dsp._jit import jit
+from livevowel.dsp.dap import _harmonic_dap_kernel, _window_power, dap, harmonic_powers
 from livevowel.dsp.lpc import METHODS as LPC_METHODS
 from livevowel.dsp.lpc import _companion, formant_candidates, lpc
-from livevowel.dsp.pitch import frame_level_db, voicing_hysteresis, yin, yin_frame_length
+from livevowel.dsp.pitch import LEVEL_FLOOR_DB as _LEVEL_FLOOR_DB
+from livevowel.dsp.pitch import _lags, _yin_kernel, frame_level_db, voicing_hysteresis, yin, yin_frame_length
 from livevowel.dsp.resample import StreamResampler, resample
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
                                     state_table, viterbi_segments)
@@ -134,6 +136,7 @@ AUTO_F0_MALE_BELOW_HZ = 165.0
 AUTO_F0_FEMALE_BELOW_HZ = 250.0
 
 _AUTO_DEFAULT = "adult_female"
+_DAP_NFFT = 1024           # FFT length of DAP's harmonic spectrum (at least; longer frames get more)
 _GATE_MARGIN_DB = 6.0      # voicing_hysteresis default margin_db, used by both paths
 _LOWEST_RATE_HZ = 8000
 _HIGHEST_RATE_HZ = 192000
@@ -400,6 +403,11 @@ class _Plan:
     taper: np.ndarray = field(repr=False)
     ref_hz: np.ndarray = field(repr=False)
     min_hz: float = 90.0
+    tau_min: int = 2          # YIN lag range (samples) and integration window
+    tau_max: int = 3
+    yin_w: int = 1
+    nfft: int = 1024          # DAP's harmonic spectrum
+    wspec: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
 
     @property
     def max_hz(self) -> np.ndarray:
@@ -441,9 +449,13 @@ def _make_plan(s: AnalysisSettings, voice: str, input_rate: int) -> tuple[_Plan,
         n_pitch += 1
     ext = max(0, (n_pitch - n) // 2)
     n_pitch = n + 2 * ext
+    _, tau_min, tau_max = _lags(rate, s.f0_min_hz, f0_max)
+    taper = framing.taper(s.taper, n)
+    nfft = max(_DAP_NFFT, 1 << int(np.ceil(np.log2(n))))
     plan = _Plan(voice=voice, ceiling_hz=ceiling, rate_hz=rate, order=order, hop=hop, n=n, n_pitch=n_pitch,
                  ext=ext, coef=framing.pre_emphasis_coefficient(s.pre_emphasis_hz, rate),
-                 taper=framing.taper(s.taper, n), ref_hz=ref)
+                 taper=taper, ref_hz=ref, tau_min=tau_min, tau_max=tau_max, yin_w=n_pitch - tau_max - 1,
+                 nfft=nfft, wspec=_window_power(taper, nfft))
     return plan, warns
 
 
@@ -528,10 +540,9 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
     if b > a:
         seg[a - lo: b - lo] = x[a - base: b - base]
     if n_k == 1:
-        rows = seg[None, :]                               # seg is exactly the one row
-    else:
-        view = np.lib.stride_tricks.sliding_window_view(seg, plan.n_pitch + 1)
-        rows = view[starts - lo - plan.ext - 1]           # (n_k, n_pitch + 1), row start = frame start - ext - 1
+        return _features_one(plan, s, seg, pitch=pitch, formants=formants, f0_hz=f0_hz)
+    view = np.lib.stride_tricks.sliding_window_view(seg, plan.n_pitch + 1)
+    rows = view[starts - lo - plan.ext - 1]               # (n_k, n_pitch + 1), row start = frame start - ext - 1
     formant_rows = rows[:, plan.ext: plan.ext + plan.n + 1]  # one extra sample before the frame
     if pitch:
         out["level_db"] = frame_level_db(formant_rows[:, 1:])
@@ -563,7 +574,7 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
             groups = [sel] if len(sel) else []
         for g in groups:
             hf, hp, hw = harmonic_powers(cond[g], f0[g], rate_hz=plan.rate_hz,
-                                         max_hz=plan.rate_hz / 2.0 - plan.min_hz, nfft=1024,
+                                         max_hz=plan.rate_hz / 2.0 - plan.min_hz, nfft=plan.nfft,
                                          window=plan.taper)
             a_dap, _ = dap(hf, hp, hw, order=plan.order, rate_hz=plan.rate_hz, iterations=s.dap_iterations)
             coeffs[g] = a_dap
@@ -577,6 +588,88 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
                                     max_hz=plan.rate_hz / 2.0 - plan.min_hz, max_bandwidth_hz=s.max_bandwidth_hz)
     out["cand_f"], out["cand_b"] = cf, cb
     return out
+
+
+def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: bool, formants: bool,
+                  f0_hz: np.ndarray | None) -> dict[str, np.ndarray]:
+    """:func:`_features` of one frame (the streaming case): the same steps, in
+    three compiled calls and one FFT. ``seg`` is the frame's row (``n_pitch + 1``
+    samples, starting one sample before the pitch window)."""
+    out: dict[str, np.ndarray] = {}
+    need_f0 = s.method in ("dap", "hybrid") and formants
+    f0 = math.nan
+    if pitch or (need_f0 and f0_hz is None):
+        dp = np.empty(plan.tau_max + 2)
+        sf = -1.0 if _YIN_SKIP_FACTOR is None else _YIN_SKIP_FACTOR
+        level, f0, ap = _level_pitch_kernel(seg, plan.ext, plan.n, float(plan.rate_hz), plan.tau_min, plan.tau_max,
+                                            plan.yin_w, float(s.yin_threshold), sf, _YIN_SKIP_MARGIN, dp)
+        if pitch:
+            out["level_db"] = np.array([level])
+            out["f0_hz"] = np.array([f0])
+            out["aper"] = np.array([ap])
+    if not formants:
+        return out
+    if f0_hz is not None and not pitch:
+        f0 = float(np.asarray(f0_hz, dtype=np.float64).reshape(-1)[0])
+    cond = np.empty(plan.n)
+    _condition_kernel(seg, plan.ext, plan.n, plan.coef, plan.taper, cond)
+    a = np.empty(plan.order + 1)
+    use = (s.method in ("dap", "hybrid") and math.isfinite(f0)
+           and f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
+    max_hz = plan.rate_hz / 2.0 - plan.min_hz
+    m = int(math.floor(max_hz / f0)) if use and f0 > 0 else 0
+    if use and m >= 1:
+        spec = np.fft.rfft(cond, plan.nfft)
+        spec = spec.real * spec.real + spec.imag * spec.imag
+        _harmonic_dap_kernel(spec, f0, plan.rate_hz / plan.nfft, m, _HARMONIC_SEARCH, True, plan.wspec,
+                             plan.order, float(plan.rate_hz), int(s.dap_iterations), a)
+    elif use:
+        # no harmonic below the top (F0 above it): the fit has nothing to use, as in the batch path
+        a[:] = dap(np.zeros((1, 1)), np.ones((1, 1)), np.zeros((1, 1)), order=plan.order, rate_hz=plan.rate_hz,
+                   iterations=s.dap_iterations)[0][0]
+    else:
+        meth = "autocorrelation" if s.method in ("dap", "hybrid") else s.method
+        a[:] = lpc(cond[None, :], order=plan.order, method=meth, window=None, rate_hz=plan.rate_hz)[0]
+    out["cand_f"], out["cand_b"] = _candidates_one(a, plan.rate_hz, plan.min_hz, max_hz, s.max_bandwidth_hz)
+    return out
+
+
+#: YIN dip-skipping rule used by the engine (pitch.yin's defaults).
+_YIN_SKIP_FACTOR: float | None = 2.0
+_YIN_SKIP_MARGIN = 0.05
+#: Harmonic peak search half-width, fraction of F0 (dap.harmonic_powers' default).
+_HARMONIC_SEARCH = 0.25
+
+
+@jit
+def _level_pitch_kernel(seg, ext, n, rate, tau_min, tau_max, w, threshold, skip_factor, skip_margin, dp):  # pragma: no cover
+    """Level (dBFS) of the formant window, then YIN (fallback on) with the octave-down check of :func:`_pitch`."""
+    ms = 0.0
+    for j in range(n):
+        v = seg[ext + 1 + j]
+        ms += v * v
+    ms /= n
+    level = 10.0 * math.log10(ms) if ms > 0 else -np.inf
+    level = max(level, _LEVEL_FLOOR_DB)
+    f, a = _yin_kernel(seg[1:], rate, tau_min, tau_max, w, threshold, True, skip_factor, skip_margin, dp)
+    if math.isfinite(f):
+        tau2 = int(np.rint(2.0 * rate / f))
+        if 0 <= tau2 <= tau_max:
+            d2 = dp[tau2]
+            if a > 0.03 and d2 < 0.5 * a:
+                return level, f / 2.0, d2
+    return level, f, a
+
+
+@jit
+def _condition_kernel(seg, ext, n, coef, taper, out):  # pragma: no cover - compiled
+    """:func:`framing.condition_frames` of the frame in ``seg`` (its ``n + 1`` samples from ``ext``)."""
+    mean = 0.0
+    for j in range(n + 1):
+        mean += seg[ext + j]
+    mean /= n + 1
+    for j in range(n):
+        out[j] = ((seg[ext + 1 + j] - mean) - coef * (seg[ext + j] - mean)) * taper[j]
 
 
 def _confidence(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: np.ndarray, level_db: np.ndarray,
