@@ -86,7 +86,7 @@ from livevowel.dsp import framing
 from livevowel.dsp._jit import jit
 from livevowel.dsp.dap import _harmonic_dap_kernel, _window_power, dap, harmonic_powers
 from livevowel.dsp.lpc import METHODS as LPC_METHODS
-from livevowel.dsp.lpc import _companion, formant_candidates, lpc
+from livevowel.dsp.lpc import candidates_from_coefficients, formant_candidates, lpc
 from livevowel.dsp.pitch import LEVEL_FLOOR_DB as _LEVEL_FLOOR_DB
 from livevowel.dsp.pitch import _lags, _yin_kernel, frame_level_db, voicing_hysteresis, yin, yin_frame_length
 from livevowel.dsp.resample import StreamResampler, resample
@@ -691,33 +691,9 @@ def _confidence(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: np.ndarray,
 
 def _candidates_one(a: np.ndarray, rate: float, min_hz: float, max_hz: float,
                     max_bw_hz: float | None) -> tuple[np.ndarray, np.ndarray]:
-    """:func:`~livevowel.dsp.lpc.formant_candidates` of one inverse filter (the streaming case):
-    the companion-matrix eigenvalues, then the few roots in Python floats."""
-    p = len(a) - 1
-    k_out = p // 2
-    f_out = np.full((1, k_out), np.nan)
-    b_out = np.full((1, k_out), np.nan)
-    if not (np.isfinite(a).all() and a[0] != 0):
-        return f_out, b_out
-    roots = np.linalg.eigvals(_companion(a[None, :]))[0].tolist()
-    found = []
-    fscale = rate / (2.0 * math.pi)
-    bscale = rate / math.pi
-    for z in roots:
-        if not z.imag > 1e-12:
-            continue
-        f = math.atan2(z.imag, z.real) * fscale
-        if not (min_hz <= f <= max_hz):
-            continue
-        bw = abs(math.log(max(abs(z), 1e-300))) * bscale
-        if max_bw_hz is not None and not bw <= max_bw_hz:
-            continue
-        found.append((f, bw))
-    found.sort()
-    for i, (f, bw) in enumerate(found[:k_out]):
-        f_out[0, i] = f
-        b_out[0, i] = bw
-    return f_out, b_out
+    """:func:`~livevowel.dsp.lpc.formant_candidates` of one inverse filter (the streaming case)."""
+    return candidates_from_coefficients(a[None, :], rate_hz=rate, min_hz=min_hz, max_hz=max_hz,
+                                        max_bandwidth_hz=max_bw_hz)
 
 
 def _confidence_one(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: float, level_db: float,

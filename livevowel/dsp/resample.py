@@ -22,6 +22,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.signal import firwin, resample_poly
 
+from livevowel.dsp._jit import jit
+
 __all__ = ["rational_ratio", "resample", "StreamResampler", "polyphase_filter"]
 
 
@@ -145,12 +147,6 @@ class StreamResampler:
             self.delay_s = self._filt.pre_remove * self.down / self.up / self.in_rate_hz
             q = self._filt.taps.shape[1]
             self._hist = q  # input samples kept before the oldest one needed
-            # Index pattern for one group of outputs starting at stream output 0.
-            n = np.arange(self.group)
-            t = n * self.down
-            self._p = t % self.up
-            self._i0 = t // self.up
-            self._j = np.arange(q)
         self.reset()
 
     def reset(self) -> None:
@@ -178,16 +174,10 @@ class StreamResampler:
                                    for g in range(0, n_groups, step)])
         filt = self._filt
         q = filt.taps.shape[1]
-        # all outputs of the groups at once: each output is the same dot
-        # product of the same q values, so its value does not depend on how
-        # many groups are made in one call (row-wise reduction)
-        n = self._next + np.arange(n_groups * self.group)
-        t = n * self.down
-        i0, p = np.divmod(t, self.up)
-        idx = i0[:, None] - self._j[None, :]                      # input indices (M, q)
-        rel = np.clip(idx - self._buf0, 0, max(len(self._buf) - 1, 0))
-        x = np.where(idx >= 0, self._buf[rel] if len(self._buf) else 0.0, 0.0)
-        y = np.einsum("ij,ij->i", x, filt.taps[p])
+        # each output is the same compiled dot product of the same q values, so
+        # its value does not depend on how many groups are made in one call
+        y = np.empty(n_groups * self.group)
+        _polyphase_kernel(self._buf, self._buf0, self._next, self.up, self.down, filt.taps, y)
         self._next += n_groups * self.group
         keep_from = max(0, (self._next * self.down) // self.up - q - 1)
         if keep_from > self._buf0:
@@ -243,3 +233,22 @@ class StreamResampler:
             pad = np.zeros(need_in - self._n_in)
             self._buf = np.concatenate([self._buf, pad]) if len(self._buf) else pad
         return self._trim(self._compute_groups(n_groups), n_total)
+
+
+@jit
+def _polyphase_kernel(buf, buf0, first, up, down, taps, out):  # pragma: no cover - compiled
+    """Outputs ``first .. first + len(out) - 1`` of the polyphase filter on the input held in ``buf``
+    (input index ``buf0`` onward; indices before 0 read as zero)."""
+    q = taps.shape[1]
+    last = buf.shape[0] - 1
+    for m in range(out.shape[0]):
+        t = (first + m) * down
+        i0 = t // up
+        p = t - i0 * up
+        acc = 0.0
+        for j in range(q):
+            idx = i0 - j
+            if idx >= 0 and last >= 0:
+                rel = min(max(idx - buf0, 0), last)
+                acc += buf[rel] * taps[p, j]
+        out[m] = acc
