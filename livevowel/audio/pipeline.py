@@ -186,6 +186,11 @@ class LivePipeline(Sink):
         """Start the worker, then the source. Returns self."""
         if self._worker is not None:
             raise RuntimeError("pipeline already started")
+        # compiled kernels ready before capture starts (loaded from numba's cache
+        # in ~20 ms; compiled on a machine's first run), so no backlog builds up
+        from livevowel.dsp.engine import warm_up
+
+        warm_up(self.settings)
         if self._record_to is not None:
             self.recorder = WavRecorder(self._record_to, self.source.rate_hz)
         self._worker = threading.Thread(target=self._work, name="livevowel-live-worker", daemon=True)

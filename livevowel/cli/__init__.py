@@ -79,6 +79,23 @@ def add_config_option(parser: argparse.ArgumentParser) -> None:
                         help="read settings from FILE (default: your user config.yaml if present)")
 
 
+#: Commands that run the analysis engine (its compiled kernels are readied first).
+ENGINE_COMMANDS = frozenset({"analyze", "listen", "practice", "demo", "drill", "review", "bench"})
+
+
+def _prepare_engine() -> None:
+    """On the first run on a machine, say why the start is slow and compile the kernels."""
+    from livevowel.dsp._jit import kernels_cached
+    from livevowel.dsp.engine import warm_up      # imports every module with kernels
+
+    if kernels_cached():
+        return
+
+    print("livevowel: first run on this machine: compiling the analysis engine "
+          "(once; about half a minute)...", file=sys.stderr, flush=True)
+    warm_up()
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``livevowel`` console script; returns the exit status."""
     parser = build_parser()
@@ -90,6 +107,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     try:
+        if args.command in ENGINE_COMMANDS:
+            _prepare_engine()
         return int(args._run(args) or 0)
     except UserError as exc:
         print(f"livevowel {args.command}: error: {exc}", file=sys.stderr)

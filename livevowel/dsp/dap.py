@@ -130,6 +130,7 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
 
 
 _NO_WINDOW = np.zeros(0)
+_NO_WINDOW.setflags(write=False)      # read-only like _window_power's arrays: one compiled signature
 _NOISE_GUESS = 10.0 ** (-LOST_BELOW_NOISE_DB / 10.0)
 _FLOOR = 10.0 ** (FLOOR_DB / 10.0)
 
@@ -260,16 +261,17 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
     if w.ndim != 2:
         raise ValueError(f"weight must have shape (n, M), got {w.shape}")
     n, m = w.shape
-    f = np.broadcast_to(np.asarray(freq_hz, dtype=np.float64), (n, m))
-    pw = np.broadcast_to(np.asarray(power, dtype=np.float64), (n, m))
+    # writeable C arrays: one compiled signature for every caller
+    f, pw, w = (np.require(np.asarray(v, dtype=np.float64), requirements="CW") for v in (freq_hz, power, w))
+    if f.shape != (n, m) or pw.shape != (n, m):
+        raise ValueError(f"freq_hz, power and weight must have the same shape (n, M), got {f.shape}, {pw.shape}, {w.shape}")
     p = int(order)
     if p < 1:
         raise ValueError(f"order must be at least 1, got {order!r}")
     a = np.empty((n, p + 1))
     ok = np.zeros(n, dtype=bool)
     for i in range(n):
-        ok[i] = _dap_kernel(np.ascontiguousarray(f[i]), np.ascontiguousarray(pw[i]), np.ascontiguousarray(w[i]),
-                            p, float(rate_hz), int(iterations), a[i])
+        ok[i] = _dap_kernel(f[i], pw[i], w[i], p, float(rate_hz), int(iterations), a[i])
     return a, ok
 
 

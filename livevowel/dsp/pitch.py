@@ -129,6 +129,7 @@ def difference_function(frames, *, max_lag: int, window: int | None = None) -> n
 def _difference(x: np.ndarray, max_lag: int, w: int) -> np.ndarray:
     """Core of :func:`difference_function` (no validation): one compiled call per frame."""
     d = np.empty((x.shape[0], max_lag + 1))
+    x = np.require(x, dtype=np.float64, requirements="CW")   # one compiled signature for every caller
     for i in range(x.shape[0]):
         _difference_kernel(x[i], max_lag, w, d[i])
     return d
@@ -160,6 +161,7 @@ def cmnd(d: np.ndarray) -> np.ndarray:
 
 
 def _cmnd(d: np.ndarray) -> np.ndarray:
+    d = np.require(d, dtype=np.float64, requirements="CW")
     out = np.empty_like(d)
     for i in range(d.shape[0]):
         _cmnd_kernel(d[i], out[i])
@@ -247,6 +249,7 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
             f"YIN needs frames of at least {need} samples ({1e3 * need / rate:.1f} ms) for "
             f"f0_min_hz={f0_min_hz:g} at {rate:g} Hz, got {n}")
     w = n - tau_max - 1
+    x = np.require(x, dtype=np.float64, requirements="CW")   # one compiled signature for every caller
     f0 = np.empty(n_frames)
     aper = np.empty(n_frames)
     dp = np.empty((n_frames, tau_max + 2))
