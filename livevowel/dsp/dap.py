@@ -367,17 +367,28 @@ def _dap_kernel(freq_hz, power, w, p, rate_hz, iterations, a):  # pragma: no cov
             wl[q] = w[j]
             pl[q] = power[j] * w[j] / scale
             q += 1
+    # cos(k w_m), sin(k w_m) by complex rotation (error ~k ulp), in both layouts:
+    # [k, m] for A = a @ E (vectorised over m) and [m, k] for h (vectorised over k)
     cosm = np.empty((p + 1, live))
     sinm = np.empty((p + 1, live))
+    cost = np.empty((live, p + 1))
+    sint = np.empty((live, p + 1))
+    for j in range(live):
+        c1 = math.cos(om[j])
+        s1 = math.sin(om[j])
+        ck, sk = 1.0, 0.0
+        for k in range(p + 1):
+            cosm[k, j] = ck
+            sinm[k, j] = sk
+            cost[j, k] = ck
+            sint[j, k] = sk
+            ck, sk = ck * c1 - sk * s1, sk * c1 + ck * s1
     r = np.zeros(p + 1)
+    for j in range(live):
+        for k in range(p + 1):
+            r[k] += cost[j, k] * pl[j]
     for k in range(p + 1):
-        acc = 0.0
-        for j in range(live):
-            c = math.cos(k * om[j])
-            cosm[k, j] = c
-            sinm[k, j] = math.sin(k * om[j])
-            acc += c * pl[j]
-        r[k] = acc / max(cnt, 1.0)
+        r[k] /= max(cnt, 1.0)
     r[0] *= 1.0 + 1e-9
     if not live >= (p + 1) / 2.0:
         _levinson(r, a)
@@ -397,22 +408,27 @@ def _dap_kernel(freq_hz, power, w, p, rate_hz, iterations, a):  # pragma: no cov
     c = np.empty(p + 1)
     ar = np.empty(live)
     ai = np.empty(live)
+    sr = np.empty(live)
+    si = np.empty(live)
     for _ in range(iterations):
-        for j in range(live):
-            sr = 0.0
-            si = 0.0
-            for k in range(p + 1):
-                sr += a[k] * cosm[k, j]
-                si -= a[k] * sinm[k, j]
-            mag = sr * sr + si * si
-            ar[j] = wl[j] * sr / mag
-            ai[j] = wl[j] * si / mag
-        # h_k = Re(sum_m w_m e_km / A_m), e = cos - j sin, w/A = w (ar - j ai) / |A|^2
+        # A_m = sum_k a_k e^{-j k w_m} = sr + j si, summed in k order for every m
+        sr[:] = 0.0
+        si[:] = 0.0
         for k in range(p + 1):
-            acc = 0.0
+            ak = a[k]
             for j in range(live):
-                acc += ar[j] * cosm[k, j] - ai[j] * sinm[k, j]
-            h[k] = acc
+                sr[j] += ak * cosm[k, j]
+                si[j] -= ak * sinm[k, j]
+        for j in range(live):
+            mag = sr[j] * sr[j] + si[j] * si[j]
+            ar[j] = wl[j] * sr[j] / mag
+            ai[j] = wl[j] * si[j] / mag
+        # h_k = Re(sum_m w_m e_km / A_m), e = cos - j sin, w/A = w (ar - j ai) / |A|^2; in m order for every k
+        h[:] = 0.0
+        for j in range(live):
+            arj, aij = ar[j], ai[j]
+            for k in range(p + 1):
+                h[k] += arj * cost[j, k] - aij * sint[j, k]
         good = True
         for k in range(p + 1):
             acc = 0.0

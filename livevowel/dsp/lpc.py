@@ -634,7 +634,9 @@ def candidates_from_coefficients(a: np.ndarray, *, rate_hz: float, min_hz: float
 @jit
 def _aberth_kernel(a, z):  # pragma: no cover - compiled
     """Roots of ``a[0] z^p + ... + a[p]`` into ``z`` (complex, p) by the Aberth-Ehrlich iteration
-    (Gauss-Seidel sweeps, start on a circle). False if it did not converge or ``a`` is unusable."""
+    (Gauss-Seidel sweeps, start on a circle). A root stops when its correction is below 1e-14
+    of its size or the polynomial there is at its rounding-error level. False if it did not
+    converge or ``a`` is unusable."""
     p = a.shape[0] - 1
     if not (a[0] != 0 and math.isfinite(a[0])):
         return False
@@ -643,6 +645,15 @@ def _aberth_kernel(a, z):  # pragma: no cover - compiled
         c[k] = a[k] / a[0]
         if not math.isfinite(c[k]):
             return False
+    # trailing zero coefficients are exact roots at 0 (e.g. the [1, 0, ..., 0] of a
+    # silent frame): set them aside, iterate on the rest
+    deg = p
+    while deg > 0 and c[deg] == 0.0:
+        z[deg - 1] = 0.0
+        deg -= 1
+    if deg == 0:
+        return True
+    p = deg
     rad = 0.0
     for k in range(1, p + 1):
         rad = max(rad, abs(c[k]) ** (1.0 / k))
@@ -660,10 +671,16 @@ def _aberth_kernel(a, z):  # pragma: no cover - compiled
             zk = z[k]
             pv = complex(1.0, 0.0)
             dv = complex(0.0, 0.0)
+            az = abs(zk)
+            bound = 1.0                         # sum_j |c_j| |z|^(p - j), for the rounding bound
             for j in range(1, p + 1):
                 dv = dv * zk + pv
                 pv = pv * zk + c[j]
-            if pv == 0:
+                bound = bound * az + abs(c[j])
+            # |p(z)| at the level of Horner's rounding error: z is a root of a
+            # polynomial within a few ulps of this one (a backward-error stop;
+            # what makes multiple roots end as well)
+            if abs(pv) <= 8.0 * p * 2.220446049250313e-16 * bound:
                 done[k] = True
                 continue
             if dv == 0:
