@@ -678,12 +678,13 @@ def _aberth_kernel(a, z):  # pragma: no cover - compiled
                 pv = pv * zk + c[j]
                 bound = bound * az + abs(c[j])
             # |p(z)| at the level of Horner's rounding error: z is a root of a
-            # polynomial within a few ulps of this one (a backward-error stop;
-            # what makes multiple roots end as well)
-            if abs(pv) <= 8.0 * p * 2.220446049250313e-16 * bound:
-                done[k] = True
-                continue
+            # polynomial within a few ulps of this one (a backward-error stop,
+            # which also ends multiple roots); one last correction is still applied
+            at_noise = abs(pv) <= p * 2.220446049250313e-16 * bound
             if dv == 0:
+                if at_noise:
+                    done[k] = True
+                    continue
                 return False
             ratio = pv / dv
             acc = complex(0.0, 0.0)
@@ -694,7 +695,7 @@ def _aberth_kernel(a, z):  # pragma: no cover - compiled
             if not (math.isfinite(w.real) and math.isfinite(w.imag)):
                 return False
             z[k] = zk - w
-            if abs(w) <= 1e-14 * max(abs(zk), 1e-3):
+            if at_noise or abs(w) <= 1e-14 * max(abs(zk), 1e-3):
                 done[k] = True
         if n_done == p:
             return True
