@@ -635,8 +635,8 @@ def candidates_from_coefficients(a: np.ndarray, *, rate_hz: float, min_hz: float
 def _aberth_kernel(a, z):  # pragma: no cover - compiled
     """Roots of ``a[0] z^p + ... + a[p]`` into ``z`` (complex, p) by the Aberth-Ehrlich iteration
     (Gauss-Seidel sweeps, start on a circle). A root stops when its correction is below 1e-14
-    of its size or the polynomial there is at its rounding-error level. False if it did not
-    converge or ``a`` is unusable."""
+    of its size, or when the polynomial there is at its rounding-error level and the
+    corrections no longer shrink fast. False if it did not converge or ``a`` is unusable."""
     p = a.shape[0] - 1
     if not (a[0] != 0 and math.isfinite(a[0])):
         return False
@@ -662,6 +662,7 @@ def _aberth_kernel(a, z):  # pragma: no cover - compiled
         ang = 2.0 * math.pi * k / p + 0.4
         z[k] = complex(rad * math.cos(ang), rad * math.sin(ang))
     done = np.zeros(p, dtype=np.bool_)
+    last_w = np.full(p, np.inf)
     for _ in range(200):
         n_done = 0
         for k in range(p):
@@ -678,8 +679,7 @@ def _aberth_kernel(a, z):  # pragma: no cover - compiled
                 pv = pv * zk + c[j]
                 bound = bound * az + abs(c[j])
             # |p(z)| at the level of Horner's rounding error: z is a root of a
-            # polynomial within a few ulps of this one (a backward-error stop,
-            # which also ends multiple roots); one last correction is still applied
+            # polynomial within a few ulps of this one (a backward-error test)
             at_noise = abs(pv) <= p * 2.220446049250313e-16 * bound
             if dv == 0:
                 if at_noise:
@@ -695,8 +695,13 @@ def _aberth_kernel(a, z):  # pragma: no cover - compiled
             if not (math.isfinite(w.real) and math.isfinite(w.imag)):
                 return False
             z[k] = zk - w
-            if at_noise or abs(w) <= 1e-14 * max(abs(zk), 1e-3):
+            aw = abs(w)
+            # done: a correction below 1e-14 of the root, or, with the value at the
+            # rounding level, corrections that stopped shrinking fast (quadratic
+            # convergence over: rounding noise, or a multiple root)
+            if aw <= 1e-14 * max(abs(zk), 1e-3) or (at_noise and aw >= 0.25 * last_w[k]):
                 done[k] = True
+            last_w[k] = aw
         if n_done == p:
             return True
     return False
