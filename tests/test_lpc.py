@@ -529,3 +529,19 @@ def test_compiled_root_iteration_edge_cases():
     f, b = formant_candidates(a, rate_hz=10000.0)
     np.testing.assert_allclose(f[0, :2], [1000.0, 1000.0], atol=1e-3)
     np.testing.assert_allclose(b[0, :2], -np.log(0.97) * 10000.0 / np.pi, rtol=1e-5)
+
+
+def test_compiled_one_frame_autocorrelation_lpc_matches_solve_toeplitz():
+    # reference: scipy.linalg.solve_toeplitz on the same autocorrelation (Levinson recursion)
+    from livevowel.dsp.lpc import _autocorrelation_lpc_kernel
+    rng = np.random.default_rng(9)
+    for n in (40, 250):
+        x = rng.standard_normal(n) * np.hanning(n)
+        r = np.array([x[: n - k] @ x[k:] for k in range(13)])
+        want = np.r_[1.0, scipy.linalg.solve_toeplitz(r[:12], -r[1:13])]
+        a = np.empty(13)
+        _autocorrelation_lpc_kernel(x, 12, a)
+        np.testing.assert_allclose(a, want, rtol=1e-9, atol=1e-12)
+    a = np.empty(13)
+    _autocorrelation_lpc_kernel(np.zeros(100), 12, a)
+    np.testing.assert_array_equal(a, np.r_[1.0, np.zeros(12)])

@@ -86,7 +86,7 @@ from livevowel.dsp import framing
 from livevowel.dsp._jit import jit
 from livevowel.dsp.dap import _harmonic_dap_kernel, _window_power, dap, harmonic_powers
 from livevowel.dsp.lpc import METHODS as LPC_METHODS
-from livevowel.dsp.lpc import candidates_from_coefficients, formant_candidates, lpc
+from livevowel.dsp.lpc import _autocorrelation_lpc_kernel, candidates_from_coefficients, formant_candidates, lpc
 from livevowel.dsp.pitch import LEVEL_FLOOR_DB as _LEVEL_FLOOR_DB
 from livevowel.dsp.pitch import _lags, _yin_kernel, frame_level_db, voicing_hysteresis, yin, yin_frame_length
 from livevowel.dsp.resample import StreamResampler, resample
@@ -361,6 +361,13 @@ def to_mono_float(samples: Any, *, where: str = "input") -> np.ndarray:
     x = np.asarray(samples)
     if x.dtype.kind not in "fiu":
         raise BadSamples(f"{where}: samples must be numbers (int or float), got dtype {x.dtype}")
+    if x.ndim == 1 and x.dtype.kind == "f":
+        y1 = x.astype(np.float64)                  # the common case (a mono float block): one copy
+        if not np.isfinite(y1).all():
+            bad = np.flatnonzero(~np.isfinite(y1))
+            raise BadSamples(f"{where}: {len(bad)} sample(s) are NaN or infinite (first at index {bad[0]}); "
+                             "repair or trim the recording")
+        return y1
     if x.ndim == 2:
         pass
     elif x.ndim == 1:
@@ -628,9 +635,10 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
         # no harmonic below the top (F0 above it): the fit has nothing to use, as in the batch path
         a[:] = dap(np.zeros((1, 1)), np.ones((1, 1)), np.zeros((1, 1)), order=plan.order, rate_hz=plan.rate_hz,
                    iterations=s.dap_iterations)[0][0]
+    elif s.method in ("dap", "hybrid", "autocorrelation"):
+        _autocorrelation_lpc_kernel(cond, plan.order, a)
     else:
-        meth = "autocorrelation" if s.method in ("dap", "hybrid") else s.method
-        a[:] = lpc(cond[None, :], order=plan.order, method=meth, window=None, rate_hz=plan.rate_hz)[0]
+        a[:] = lpc(cond[None, :], order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)[0]
     out["cand_f"], out["cand_b"] = _candidates_one(a, plan.rate_hz, plan.min_hz, max_hz, s.max_bandwidth_hz)
     return out
 

@@ -632,6 +632,37 @@ def candidates_from_coefficients(a: np.ndarray, *, rate_hz: float, min_hz: float
 
 
 @jit
+def _autocorrelation_lpc_kernel(x, p, a):  # pragma: no cover - compiled
+    """Autocorrelation LPC of one (already windowed) frame ``x`` into ``a`` (p + 1), Levinson-Durbin;
+    ``[1, 0, ...]`` for a zero frame (the one-frame case of ``lpc(method="autocorrelation", window=None)``)."""
+    n = x.shape[0]
+    r = np.zeros(p + 1)
+    for k in range(min(p, n - 1) + 1):
+        acc = 0.0
+        for j in range(n - k):
+            acc += x[j] * x[j + k]
+        r[k] = acc
+    a[:] = 0.0
+    a[0] = 1.0
+    err = r[0]
+    if not err > 0:
+        return
+    tmp = np.empty(p + 1)
+    for i in range(1, p + 1):
+        acc = r[i]
+        for j in range(1, i):
+            acc += a[j] * r[i - j]
+        k = -acc / err
+        tmp[:i + 1] = a[:i + 1]
+        for j in range(1, i):
+            a[j] = tmp[j] + k * tmp[i - j]
+        a[i] = k
+        err *= 1.0 - k * k
+        if not err > 0:
+            return
+
+
+@jit
 def _aberth_kernel(a, z):  # pragma: no cover - compiled
     """Roots of ``a[0] z^p + ... + a[p]`` into ``z`` (complex, p) by the Aberth-Ehrlich iteration
     (Gauss-Seidel sweeps, start on a circle). A root stops when its correction is below 1e-14

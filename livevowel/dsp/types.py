@@ -91,7 +91,7 @@ class FrameTrack:
             if f.name == "voiced":
                 arr = arr.astype(bool)
             else:
-                arr = arr.astype(np.float64)
+                arr = arr.astype(np.float64, copy=False)
             if arr.shape != (n,):
                 raise ValueError(f"FrameTrack.{f.name} has shape {arr.shape}, expected ({n},)")
             object.__setattr__(self, f.name, arr)
@@ -116,7 +116,12 @@ class FrameTrack:
         """Build a track from a list of :class:`Frame` records."""
         if not frames:
             return cls.empty()
-        return cls(**{f.name: np.array([getattr(fr, f.name) for fr in frames]) for f in fields(cls)})
+        cols = np.array([[getattr(fr, name) for name in _TRACK_FIELDS] for fr in frames], dtype=np.float64).T.copy()
+        # columns built here already have the checked shapes and types: skip __post_init__
+        track = cls.__new__(cls)
+        for name, col in zip(_TRACK_FIELDS, cols):
+            setattr(track, name, col.astype(bool) if name == "voiced" else col)
+        return track
 
     def __getitem__(self, index: "slice | np.ndarray") -> "FrameTrack":
         """Select frames by slice or boolean/integer index array."""
@@ -136,3 +141,7 @@ class FrameTrack:
     def formants(self) -> np.ndarray:
         """``(n, 3)`` array of F1, F2, F3 in Hz."""
         return np.column_stack([self.f1_hz, self.f2_hz, self.f3_hz])
+
+
+#: FrameTrack's attribute names, in order.
+_TRACK_FIELDS: tuple[str, ...] = tuple(f.name for f in fields(FrameTrack))
