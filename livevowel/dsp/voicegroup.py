@@ -16,8 +16,9 @@ for each voiced frame, the best match over the group's vowel means (F0, F1,
 F2, F3 of Peterson & Barney 1952, Table II, from memory) and over every
 increasing choice of three formant candidates for F1..F3 (or two, with a
 fixed cost for a missing F3), of the squared log-frequency differences
-divided by the spreads in :data:`LOG_SD`. Per frame the cost is capped (a
-frame that fits no vowel of any group says little), and the costs add up
+divided by the spreads in :data:`LOG_SD`. The formant part of a frame's
+cost is capped (formants that fit no vowel of any group say little; the
+frame's F0 still counts), and the costs add up
 over frames: the sum is, up to constants, minus the log-likelihood of the
 frames under a Gaussian model in log frequency for each group, with the
 vowel (per frame) and the candidate assignment as hidden choices. The
@@ -69,7 +70,7 @@ LOG_SD: tuple[float, float, float, float] = (0.20, 0.15, 0.10, 0.07)
 #: Cost (in squared SD units) of a frame whose candidates give no F3.
 MISSING_F3_COST = 4.0
 
-#: Largest cost one frame adds to a group (a frame that fits nothing is not evidence).
+#: Largest formant cost of one frame (formants that fit nothing are not evidence).
 FRAME_COST_CAP = 25.0
 
 _CHUNK = 256
@@ -137,7 +138,7 @@ def group_costs(f0_hz, cand_hz) -> np.ndarray:
             d = np.where(np.isfinite(d), d, np.inf)
             form = np.minimum(form, d.min(axis=1))
         f0t = ((np.log(f0[a:a + n])[:, None] - lt[..., 0].reshape(1, -1)) / sd[0]) ** 2   # (n, GV)
-        tot = np.minimum(form + f0t, FRAME_COST_CAP).reshape(n, g_n, v_n).min(axis=2)    # (n, G)
+        tot = (np.minimum(form, FRAME_COST_CAP) + f0t).reshape(n, g_n, v_n).min(axis=2)   # (n, G)
         out += tot.sum(axis=0)
     return out
 
