@@ -18,7 +18,7 @@ from hypothesis import settings as hsettings
 from hypothesis import strategies as st
 
 from livevowel.dsp.engine import AnalysisSettings, StreamingAnalyzer, analyze
-from livevowel.dsp.synth import synthesize_vowel
+from livevowel.dsp.synth import Schedule, Segment, render, synthesize_vowel
 from livevowel.dsp.types import FrameTrack
 from livevowel.dsp.voicegroup import GROUP_VOICES, PB1952_MEANS, group_costs, voice_from_frames
 from livevowel.targets import load_target_set
@@ -73,6 +73,19 @@ def test_causal_auto_settles_on_the_right_group(group, voice, fm, f0, expect):
     r = analyze(token(fm, f0, voice, seed=int(f0)), RATE, settings=AUTO, causal=True)
     assert r.voice == expect
     assert r.ceiling_hz == {"adult_female": 5500.0, "child": 8000.0}[expect]
+
+
+@pytest.mark.parametrize("causal", [False, True])
+@pytest.mark.parametrize("table,voice,f0,expect", [(WOMEN, "woman", 280.0, "adult_female"),
+                                                   (CHILDREN, "child", 240.0, "child")])
+def test_a_run_of_vowels_in_the_overlap_decides_right(table, voice, f0, expect, causal):
+    # four vowels of 0.2 s with short pauses: the settle window (0.5 s of voicing) spans three of them
+    segs = []
+    for v in ("æ", "u", "ɑ", "i"):
+        segs += [Segment(0.2, "voiced", f0_start_hz=f0 * 1.03, f0_end_hz=f0 * 0.97, formants_hz=table[v],
+                         transition_s=0.04), Segment(0.05, "silent")]
+    x, _ = render(Schedule(tuple(segs), voice=voice, jitter_pct=0.5), rate_hz=RATE, seed=5)
+    assert analyze(x, RATE, settings=AUTO, causal=causal).voice == expect
 
 
 def _stream(x, sizes, settings):
