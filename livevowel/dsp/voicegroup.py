@@ -24,6 +24,16 @@ frames under a Gaussian model in log frequency for each group, with the
 vowel (per frame) and the candidate assignment as hidden choices. The
 group with the lowest total wins.
 
+Limits: the templates are American English vowels of the 1950s; a speaker
+whose vowels sit elsewhere (another accent, another language) fits every
+group worse, and a single vowel can fit another group's neighbouring vowel
+(e.g. a woman's /i/ with a high F1 near a child's /ɪ/). Several vowels
+before the decision help. On the project's Klatt vowels at Hillenbrand et
+al. (1995) means (``python -m livevowel.benchmarks.autovoice``) about 9 in
+10 single-vowel tokens are placed right where F0 alone placed 7 in 10; the
+:data:`LOG_SD` values were compared with a few nearby choices on that same
+set, so it is not an untouched test of them.
+
 Nearey, T. M. & Assmann, P. F. (2007). Probabilistic 'sliding template'
 models for indirect vowel normalization. In M. J. Solé, P. S. Beddor &
 M. Ohala (eds.), Experimental Approaches to Phonology, 246-269. Oxford UP.
