@@ -412,4 +412,24 @@ def run(*, quick: bool, out: Callable[[str], None]) -> dict:
     figures["accuracy"] = rows
     if quick:
         out("  (--quick: fewer vowels, one F0 per band, shorter signals; a smoke run, not a measurement)")
+    _voice_auto_rows(quick=quick, out=out, figures=figures)
     return figures
+
+
+def _voice_auto_rows(*, quick: bool, out: Callable[[str], None], figures: dict) -> None:
+    """Summary of :mod:`livevowel.benchmarks.autovoice` (the full table is its ``__main__``)."""
+    from livevowel.benchmarks import autovoice
+
+    res = autovoice.confusion(quick=quick)
+    out("")
+    out("voice=auto: Klatt vowels at Hillenbrand et al. (1995) means (from memory), men F0 100-160, "
+        "women 180-300, children 230-300 Hz")
+    out(f"  {'path':<10}" + "".join(f"{g + ' ok':>14}" for g in autovoice.GROUPS) + f"{'all':>9}")
+    figures["voice_auto"] = {}
+    for mode in ("offline", "causal"):
+        tab = res[mode]
+        cells = [f"{tab[g][autovoice.GROUPS[g][3]]}/{sum(tab[g].values())}" for g in autovoice.GROUPS]
+        share = autovoice.correct_share(tab)
+        out(f"  {mode:<10}" + "".join(f"{c:>14}" for c in cells) + f"{100 * share:>8.1f}%")
+        figures["voice_auto"][mode] = {"correct_share": share, "table": tab}
+    out("  (full confusion table: python -m livevowel.benchmarks.autovoice)")

@@ -42,9 +42,13 @@ Stages (both paths)
    reset it and report NaN.
 
 Voice and ceiling (common practice, from memory): adult_male 5000 Hz,
-adult_female 5500 Hz, child 8000 Hz. ``voice="auto"`` decides from the
-median F0 of voiced frames: below 165 Hz adult_male, below 250 Hz
-adult_female, else child. Offline the whole file's voiced frames are used.
+adult_female 5500 Hz, child 8000 Hz. ``voice="auto"`` decides from F0 and
+the formants together (:func:`voice_from_frames`,
+:mod:`livevowel.dsp.voicegroup`): each group's Peterson & Barney (1952)
+vowel means (F0, F1..F3) are matched, frame by frame, against the F0 and
+the formant candidates of the adult_female plan, and the group that fits
+best wins; F0 alone (:func:`voice_from_f0`) takes women above ~250 Hz for
+children. Offline the whole file's voiced frames are used.
 Causally, the analyser starts as adult_female and settles once ``auto_settle_s``
 (0.5 s) of voiced frames has been seen, then keeps that voice for the rest of
 the stream; until then the other candidate voices only resample and keep
@@ -93,6 +97,7 @@ from livevowel.dsp.resample import StreamResampler, resample
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
                                     state_table, viterbi_segments)
 from livevowel.dsp.types import Frame, FrameTrack
+from livevowel.dsp.voicegroup import voice_from_frames
 from livevowel.errors import UserError
 
 __all__ = [
@@ -105,6 +110,7 @@ __all__ = [
     "StreamingAnalyzer",
     "warm_up",
     "voice_from_f0",
+    "voice_from_frames",
 ]
 
 #: Formant methods: the LPC methods of :mod:`livevowel.dsp.lpc`, discrete
@@ -131,13 +137,16 @@ REFERENCE_HZ: dict[str, tuple[float, float, float]] = {
 #: Number of formants assumed below the nominal ceiling (LPC order = 2 n + 2).
 FORMANTS_BELOW_CEILING = 5
 
-#: F0 boundaries (Hz) used by ``voice="auto"`` (between group means of
+#: F0 boundaries (Hz) of :func:`voice_from_f0` (between group means of
 #: Peterson & Barney 1952: men ~130, women ~220, children ~260 Hz, from memory).
+#: ``voice="auto"`` itself decides with :func:`voice_from_frames`, from F0 and
+#: formants together (F0 alone classes many women as children).
 AUTO_F0_MALE_BELOW_HZ = 165.0
 AUTO_F0_FEMALE_BELOW_HZ = 250.0
 
 _AUTO_DEFAULT = "adult_female"
 _DAP_NFFT = 1024           # FFT length of DAP's harmonic spectrum (at least; longer frames get more)
+_AUTO_OFFLINE_FRAMES = 3000   # offline auto: voiced frames the decision looks at (30 s at 10 ms)
 _GATE_MARGIN_DB = 6.0      # voicing_hysteresis default margin_db, used by both paths
 _LOWEST_RATE_HZ = 8000
 _HIGHEST_RATE_HZ = 192000
@@ -148,7 +157,11 @@ class BadSamples(UserError, ValueError):
 
 
 def voice_from_f0(median_f0_hz: float) -> str:
-    """Voice group for a median F0 (Hz); see the module notes for the bounds."""
+    """Voice group for a median F0 (Hz) alone, by the ``AUTO_F0_*`` bounds.
+
+    Not what ``voice="auto"`` uses (see :func:`voice_from_frames`); kept for
+    callers that have nothing but an F0.
+    """
     if not np.isfinite(median_f0_hz):
         return _AUTO_DEFAULT
     if median_f0_hz < AUTO_F0_MALE_BELOW_HZ:
@@ -783,8 +796,8 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
     if n_frames == 0:
         warns.append(f"input of {len(x)} samples is shorter than one {1e3 * s.window_s:g} ms window; no frames")
     ks = np.arange(n_frames)
-    # auto: the first pass measures F0 and level only; the formants follow on the chosen plan
-    feat = _features(plan, s, xa, 0, ks, pitch=True, formants=s.voice != "auto")
+    # auto: the first pass (adult_female plan) gives F0, level and the candidates the decision uses
+    feat = _features(plan, s, xa, 0, ks, pitch=True)
     gate_level, _ = relative_level(feat["level_db"], s, None)
     voiced, _ = voicing_hysteresis(feat["aper"], gate_level, on_threshold=s.voicing_on,
                                    off_threshold=s.voicing_off, floor_db=s.voicing_floor_db,
@@ -794,9 +807,11 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
     voice = voice0
     fplan = plan
     if s.voice == "auto":
-        f0v = feat["f0_hz"][voiced]
-        med = float(np.nanmedian(f0v)) if np.any(np.isfinite(f0v)) else float("nan")
-        voice = voice_from_f0(med)
+        # the whole file's voiced frames (at most _AUTO_OFFLINE_FRAMES, evenly spaced)
+        use = np.flatnonzero(voiced & np.isfinite(feat["f0_hz"]))
+        if len(use) > _AUTO_OFFLINE_FRAMES:
+            use = use[np.linspace(0, len(use) - 1, _AUTO_OFFLINE_FRAMES).round().astype(np.int64)]
+        voice = voice_from_frames(feat["f0_hz"][use], feat["cand_f"][use], default=_AUTO_DEFAULT)
         if voice != voice0:
             fplan, w = _make_plan(s, voice, rate)
             warns += [m for m in w if m not in warns]
@@ -810,9 +825,6 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
             cand_f[: len(f2["cand_f"])] = f2["cand_f"]
             cand_b[: len(f2["cand_b"])] = f2["cand_b"]
             feat["cand_f"], feat["cand_b"] = cand_f, cand_b
-        else:
-            f2 = _features(plan, s, xa, 0, ks, pitch=False, f0_hz=feat["f0_hz"])
-            feat["cand_f"], feat["cand_b"] = f2["cand_f"], f2["cand_b"]
     times = framing.frame_times(n_frames, frame_len=plan.n, hop=plan.hop, rate_hz=plan.rate_hz)
     track = _offline_track(feat, voiced, times, fplan, s)
     # clipping note
@@ -1019,6 +1031,7 @@ class StreamingAnalyzer:
         self._pending: dict[str, dict[int, dict]] = {v: {} for v in voices}
         self._k = 0                         # next frame to assemble
         self._voiced_f0: list[float] = []
+        self._voiced_cand: list[np.ndarray] = []   # primary-plan candidates of those frames
         self._settle_frames = int(math.ceil(s.auto_settle_s / s.hop_s - 1e-9))
         pplan = self.plans[self.primary]
         self._hop_s = pplan.hop / pplan.rate_hz
@@ -1162,8 +1175,11 @@ class StreamingAnalyzer:
         # causal auto voice: settle at a fixed frame; the switch applies from the next frame
         if not self.settled and voiced and np.isfinite(f0):
             self._voiced_f0.append(f0)
+            self._voiced_cand.append(cand["cand_f"] if cand is not None
+                                     else np.full(self.plans[self.primary].order // 2, np.nan))
             if len(self._voiced_f0) >= self._settle_frames:
-                self._settle(voice_from_f0(float(np.median(self._voiced_f0))), k)
+                self._settle(voice_from_frames(np.array(self._voiced_f0), np.vstack(self._voiced_cand),
+                                               default=_AUTO_DEFAULT), k)
         rec = {"k": k, "voiced": voiced, "f0": f0, "aper": float(p["aper"]), "level": float(p["level_db"]),
                "time": (k * self.plans[self.primary].hop + (self.plans[self.primary].n - 1) / 2.0)
                / self.plans[self.primary].rate_hz, "cost": None, "sf": None, "sb": None}
@@ -1176,6 +1192,7 @@ class StreamingAnalyzer:
 
     def _settle(self, voice: str, k: int) -> None:
         self.settled = True
+        self._voiced_cand = []
         if voice != self.active:
             self.active = voice
             ch = self.chains[voice]
