@@ -97,7 +97,7 @@ from livevowel.dsp.resample import StreamResampler, resample
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
                                     state_table, viterbi_segments)
 from livevowel.dsp.types import Frame, FrameTrack
-from livevowel.dsp.voicegroup import voice_from_frames
+from livevowel.dsp.voicegroup import add_frame_cost, voice_from_costs, voice_from_frames
 from livevowel.errors import UserError
 
 __all__ = [
@@ -1031,7 +1031,7 @@ class StreamingAnalyzer:
         self._pending: dict[str, dict[int, dict]] = {v: {} for v in voices}
         self._k = 0                         # next frame to assemble
         self._voiced_f0: list[float] = []
-        self._voiced_cand: list[np.ndarray] = []   # primary-plan candidates of those frames
+        self._group_cost = np.zeros(3)              # voicegroup costs of those frames so far
         self._settle_frames = int(math.ceil(s.auto_settle_s / s.hop_s - 1e-9))
         pplan = self.plans[self.primary]
         self._hop_s = pplan.hop / pplan.rate_hz
@@ -1175,11 +1175,11 @@ class StreamingAnalyzer:
         # causal auto voice: settle at a fixed frame; the switch applies from the next frame
         if not self.settled and voiced and np.isfinite(f0):
             self._voiced_f0.append(f0)
-            self._voiced_cand.append(cand["cand_f"] if cand is not None
-                                     else np.full(self.plans[self.primary].order // 2, np.nan))
+            # group costs add up frame by frame (the same sums as voice_from_frames over these frames)
+            add_frame_cost(self._group_cost, f0, cand["cand_f"] if cand is not None
+                           else np.full(self.plans[self.primary].order // 2, np.nan))
             if len(self._voiced_f0) >= self._settle_frames:
-                self._settle(voice_from_frames(np.array(self._voiced_f0), np.vstack(self._voiced_cand),
-                                               default=_AUTO_DEFAULT), k)
+                self._settle(voice_from_costs(self._group_cost), k)
         rec = {"k": k, "voiced": voiced, "f0": f0, "aper": float(p["aper"]), "level": float(p["level_db"]),
                "time": (k * self.plans[self.primary].hop + (self.plans[self.primary].n - 1) / 2.0)
                / self.plans[self.primary].rate_hz, "cost": None, "sf": None, "sb": None}
@@ -1192,7 +1192,6 @@ class StreamingAnalyzer:
 
     def _settle(self, voice: str, k: int) -> None:
         self.settled = True
-        self._voiced_cand = []
         if voice != self.active:
             self.active = voice
             ch = self.chains[voice]

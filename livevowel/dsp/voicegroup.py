@@ -41,12 +41,15 @@ M. Ohala (eds.), Experimental Approaches to Phonology, 246-269. Oxford UP.
 
 from __future__ import annotations
 
+import math
 from functools import lru_cache
-from itertools import combinations
 
 import numpy as np
 
-__all__ = ["GROUP_VOICES", "PB1952_MEANS", "LOG_SD", "group_costs", "voice_from_frames"]
+from livevowel.dsp._jit import jit
+
+__all__ = ["GROUP_VOICES", "PB1952_MEANS", "LOG_SD", "group_costs", "add_frame_cost", "voice_from_costs",
+           "voice_from_frames"]
 
 #: Engine voice of each group, in the order of :func:`group_costs`' output.
 GROUP_VOICES: tuple[str, ...] = ("adult_male", "adult_female", "child")
@@ -83,17 +86,9 @@ MISSING_F3_COST = 4.0
 #: Largest formant cost of one frame (formants that fit nothing are not evidence).
 FRAME_COST_CAP = 25.0
 
-_CHUNK = 256
 
 
 @lru_cache(maxsize=8)
-def _choices(k: int) -> tuple[np.ndarray, np.ndarray]:
-    """Increasing candidate-index triples (F1, F2, F3) and pairs (F1, F2)."""
-    triples = np.array(list(combinations(range(k), 3)), dtype=np.int64).reshape(-1, 3)
-    pairs = np.array(list(combinations(range(k), 2)), dtype=np.int64).reshape(-1, 2)
-    return triples, pairs
-
-
 def _log_templates() -> np.ndarray:
     """(groups, vowels, 4) natural logs of :data:`PB1952_MEANS`."""
     return np.log(np.array([PB1952_MEANS[v] for v in GROUP_VOICES], dtype=np.float64))
@@ -121,36 +116,77 @@ def group_costs(f0_hz, cand_hz) -> np.ndarray:
     if cand.ndim != 2 or cand.shape[0] != f0.shape[0]:
         raise ValueError(f"group_costs: cand_hz must be (n, K) with n = len(f0_hz) = {len(f0)}, "
                          f"got shape {cand.shape}")
-    keep = np.isfinite(f0) & (f0 > 0)
-    f0, cand = f0[keep], cand[keep]
     out = np.zeros(len(GROUP_VOICES))
-    if len(f0) == 0:
-        return out
-    lt = _log_templates()                                   # (G, V, 4)
-    g_n, v_n = lt.shape[:2]
-    sd = np.asarray(LOG_SD)
-    tf = lt[..., 1:].reshape(g_n * v_n, 3) / sd[1:]         # scaled template formants (GV, 3)
-    k = cand.shape[1]
-    lc = np.log(np.where(cand > 0, cand, np.nan))            # NaN candidates stay NaN
-    triples, pairs = _choices(k)
-    for a in range(0, len(f0), _CHUNK):
-        lcc = lc[a:a + _CHUNK]
-        n = lcc.shape[0]
-        form = np.full((n, g_n * v_n), np.inf)
-        if len(triples):
-            sv = lcc[:, triples] / sd[1:]                              # (n, T, 3)
-            d = ((sv[:, :, None, :] - tf[None, None, :, :]) ** 2).sum(-1)   # (n, T, GV)
-            d = np.where(np.isfinite(d), d, np.inf)
-            form = np.minimum(form, d.min(axis=1))
-        if len(pairs):
-            sv = lcc[:, pairs] / sd[1:3]                               # (n, P, 2)
-            d = ((sv[:, :, None, :] - tf[None, None, :, :2]) ** 2).sum(-1) + MISSING_F3_COST
-            d = np.where(np.isfinite(d), d, np.inf)
-            form = np.minimum(form, d.min(axis=1))
-        f0t = ((np.log(f0[a:a + n])[:, None] - lt[..., 0].reshape(1, -1)) / sd[0]) ** 2   # (n, GV)
-        tot = (np.minimum(form, FRAME_COST_CAP) + f0t).reshape(n, g_n, v_n).min(axis=2)   # (n, G)
-        out += tot.sum(axis=0)
+    cand = np.require(cand, requirements="CW")
+    lt, sd = _kernel_tables()
+    for i in range(len(f0)):
+        if math.isfinite(f0[i]) and f0[i] > 0:
+            _frame_cost_kernel(float(f0[i]), cand[i], lt, sd, FRAME_COST_CAP, MISSING_F3_COST, out)
     return out
+
+
+@lru_cache(maxsize=1)
+def _kernel_tables() -> tuple[np.ndarray, np.ndarray]:
+    """Log templates (G, V, 4) and spreads (4,) as the kernel takes them."""
+    return np.ascontiguousarray(_log_templates()), np.asarray(LOG_SD, dtype=np.float64)
+
+
+def add_frame_cost(costs: np.ndarray, f0_hz: float, cand_hz: np.ndarray) -> None:
+    """Add one voiced frame's capped cost per group to ``costs`` (3,) in place (the streaming
+    form of :func:`group_costs`: adding frames one by one gives the same sums)."""
+    if math.isfinite(f0_hz) and f0_hz > 0:
+        lt, sd = _kernel_tables()
+        _frame_cost_kernel(float(f0_hz), np.require(np.asarray(cand_hz, dtype=np.float64), requirements="CW"),
+                           lt, sd, FRAME_COST_CAP, MISSING_F3_COST, costs)
+
+
+def voice_from_costs(costs: np.ndarray) -> str:
+    """The group with the lowest summed cost; ties go to the adult female voice, then adult male."""
+    order = (1, 0, 2)
+    best = min(order, key=lambda i: (costs[i], order.index(i)))
+    return GROUP_VOICES[best]
+
+
+@jit
+def _frame_cost_kernel(f0, cand, lt, sd, cap, miss, out):  # pragma: no cover - compiled
+    """One frame of :func:`group_costs`, added to ``out`` (G,)."""
+    g_n, v_n = lt.shape[0], lt.shape[1]
+    k = cand.shape[0]
+    lc = np.empty(k)
+    for i in range(k):
+        lc[i] = math.log(cand[i]) if cand[i] > 0 else np.nan
+    lf0 = math.log(f0)
+    for g in range(g_n):
+        best_g = np.inf
+        for v in range(v_n):
+            t1 = lt[g, v, 1] / sd[1]
+            t2 = lt[g, v, 2] / sd[2]
+            t3 = lt[g, v, 3] / sd[3]
+            form = np.inf
+            for a in range(k):
+                x1 = lc[a] / sd[1]
+                if not math.isfinite(x1):
+                    continue
+                for b in range(a + 1, k):
+                    x2 = lc[b] / sd[2]
+                    if not math.isfinite(x2):
+                        continue
+                    d12 = (x1 - t1) ** 2 + (x2 - t2) ** 2
+                    dp = d12 + miss
+                    if dp < form:
+                        form = dp
+                    for c in range(b + 1, k):
+                        x3 = lc[c] / sd[3]
+                        if not math.isfinite(x3):
+                            continue
+                        d = d12 + (x3 - t3) ** 2
+                        if d < form:
+                            form = d
+            f0t = ((lf0 - lt[g, v, 0]) / sd[0]) ** 2
+            tot = min(form, cap) + f0t
+            if tot < best_g:
+                best_g = tot
+        out[g] += best_g
 
 
 def voice_from_frames(f0_hz, cand_hz, *, default: str = "adult_female") -> str:
@@ -162,7 +198,4 @@ def voice_from_frames(f0_hz, cand_hz, *, default: str = "adult_female") -> str:
     f0 = np.asarray(f0_hz, dtype=np.float64).reshape(-1)
     if not np.any(np.isfinite(f0) & (f0 > 0)):
         return default
-    c = group_costs(f0, cand_hz)
-    order = (1, 0, 2)                 # tie-break: adult_female, adult_male, child
-    best = min(order, key=lambda i: (c[i], order.index(i)))
-    return GROUP_VOICES[best]
+    return voice_from_costs(group_costs(f0, cand_hz))
