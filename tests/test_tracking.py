@@ -156,3 +156,82 @@ def test_step_response_lag_of_the_causal_engine():
     assert crossing(c) < 0.25 + 0.0125 + 0.03
     late = c.time_s > 0.32
     assert np.all(np.abs(c.f1_hz[late] / 730.0 - 1) < 0.05)
+
+
+def test_causal_tracker_leaves_a_wrong_reading_after_a_jump():
+    """Process with a known answer: F1-F3 jump from /i/ to /ɑ/ (Peterson & Barney 1952 men's means,
+    from memory) with a fourth candidate above F3 throughout.
+
+    Right after the jump, "F3 of /ɑ/ as F2, the extra pole as F3" sits close to the old /i/ reading,
+    so a tracker that only weighs the transition from its last choice keeps it for as long as each
+    frame's local saving is smaller than the jump. With the forward recursion the correct reading
+    takes over as soon as the summed local costs outweigh the one jump: within two frames here.
+    """
+    men_i, men_a = (270.0, 2290.0, 3010.0), (730.0, 1090.0, 2440.0)
+    n, jump = 30, 10
+    true = np.array([men_i] * jump + [men_a] * (n - jump))
+    extra = np.where(np.arange(n) < jump, 3500.0, 3550.0)[:, None]
+    freq = np.column_stack([true, extra, np.full((n, 2), np.nan)])
+    bw = np.where(np.isnan(freq), np.nan, np.array([60.0, 100.0, 150.0, 250.0, 0.0, 0.0]))
+    st = state_table(6)
+    ref_men = np.array([500.0, 1500.0, 2500.0])   # neutral tube, 17.5 cm (common practice)
+    cost, sf, _ = local_costs(freq, bw, states=st, ref_hz=ref_men, f0_hz=np.full(n, np.nan), costs=COSTS)
+    # the trap: the wrong reading is cheaper to move to than the right one ...
+    wrong = np.flatnonzero(np.all(sf[jump] == [730.0, 2440.0, 3550.0], axis=1))[0]
+    right = np.flatnonzero(np.all(sf[jump] == men_a, axis=1))[0]
+    tr = transition_costs(np.array([men_i]), sf[jump], COSTS)[0]
+    assert tr[right] - tr[wrong] > cost[jump, wrong] - cost[jump, right] > 0
+    # ... yet the causal track reads /ɑ/ correctly from two frames after the jump on
+    tracker = CausalTracker(COSTS)
+    got = []
+    for i in range(n):
+        nxt = (cost[i + 1], sf[i + 1]) if i + 1 < n else (None, None)
+        s, _ = tracker.step(cost[i], sf[i], *nxt)
+        got.append(sf[i, s])
+    got = np.array(got)
+    np.testing.assert_allclose(got[:jump], true[:jump])
+    np.testing.assert_allclose(got[jump + 2:], true[jump + 2:])
+    # and it agrees with the offline path there
+    best = viterbi_segments(cost, sf, np.r_[True, np.zeros(n - 1, bool)], COSTS)
+    np.testing.assert_allclose(got[jump + 2:], sf[np.arange(n), best][jump + 2:])
+
+
+def _switch_frame_offsets(rate, voice, f0, seed):
+    """Klatt-synthesised /i/ <-> /ɑ/ switches (Peterson & Barney 1952 men's means, from memory).
+
+    Returns, per switch, the frame-centre time past the switch of the first of three causal frames
+    whose F1 and F2 are both within 10 % of the new vowel's (inf when never)."""
+    men_i, men_a = (270.0, 2290.0, 3010.0), (730.0, 1090.0, 2440.0)
+    segs = [Segment(duration_s=0.3, kind="silent")]
+    switch_t, targets, t = [], [], 0.3
+    for k, (fm, dur) in enumerate(((men_i, 0.7), (men_a, 0.3), (men_i, 0.3), (men_a, 0.3))):
+        segs.append(Segment(duration_s=dur, f0_start_hz=f0, formants_hz=fm))
+        if k:
+            switch_t.append(t)
+            targets.append(fm)
+        t += dur
+    segs.append(Segment(duration_s=0.1, kind="silent"))
+    y, _ = render(Schedule(tuple(segs), voice="man"), rate_hz=rate, seed=seed, peak_dbfs=-6.0)
+    fr = analyze(y, rate, settings=AnalysisSettings(voice=voice), causal=True).frames
+    out = []
+    for ts, fm in zip(switch_t, targets):
+        ok = ((np.abs(fr.f1_hz / fm[0] - 1) <= 0.1) & (np.abs(fr.f2_hz / fm[1] - 1) <= 0.1)
+              & (fr.time_s >= ts) & fr.voiced)
+        run3 = np.flatnonzero(ok[:-2] & ok[1:-1] & ok[2:])
+        out.append(fr.time_s[run3[0]] - ts if run3.size else np.inf)
+        # and it stays on the new vowel until the next switch
+        if run3.size:
+            stay = (fr.time_s >= fr.time_s[run3[0]]) & (fr.time_s < ts + 0.3 - 0.0125)
+            assert np.all(ok[stay]), f"switch at {ts:.2f} s: leaves the new vowel again"
+    return np.array(out)
+
+
+@pytest.mark.parametrize("f0", [100.0, 140.0])
+def test_causal_engine_follows_vowel_switches_promptly(f0):
+    """Every /i/ <-> /ɑ/ switch is read within half a window plus two hops (frame centres).
+
+    Half a window (12.5 ms) until a frame holds only the new vowel, then one hop for the tracker's
+    lookahead and one for the display median. Before the forward recursion, /i/ -> /ɑ/ kept F3 of
+    /ɑ/ as F2 for the whole vowel here."""
+    off = _switch_frame_offsets(16000, "adult_male", f0, seed=0)
+    assert np.all(off <= 0.0125 + 0.020 + 1e-9), off

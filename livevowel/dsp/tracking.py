@@ -23,10 +23,15 @@ found (penalised). Costs, all dimensionless:
 
 Offline, the best path over a whole voiced stretch is found by dynamic
 programming (Viterbi 1967), in the manner of the formant trackers of Talkin
-(1987) and Xia & Espy-Wilson (2000). Causally, each frame takes the state
-that minimises its local cost plus the transition from the previous choice
-plus the best continuation into the next frame (one hop of lookahead), see
-:class:`CausalTracker`.
+(1987) and Xia & Espy-Wilson (2000). Causally, :class:`CausalTracker` runs the
+same recursion forward (the cost of the best path ending in each state) and
+decides each frame with one hop of lookahead: the state that minimises its
+accumulated cost plus the best continuation into the next frame. Keeping
+every state's accumulated cost, not only the last choice, lets the track
+leave a wrong reading once its local costs have added up to more than one
+jump: after a sudden vowel change, a greedy choice would hold a candidate
+close to the old value (say F3 of /ɑ/ read as F2, next to the F2 of /i/)
+for as long as each single frame's local saving is smaller than the jump.
 
 :class:`DisplaySmoother` steadies the causal track for display: median of
 three (previous, current, provisional next) followed by an adaptive
@@ -249,44 +254,63 @@ def viterbi_segments(cost: np.ndarray, sf: np.ndarray, segment_start: np.ndarray
 
 
 class CausalTracker:
-    """Frame-by-frame state choice with one frame of lookahead.
+    """Frame-by-frame state choice: forward dynamic programming with one frame of lookahead.
 
     Call :meth:`step` with the local costs and state values of frame ``t``
     and of frame ``t + 1`` (``None`` when frame ``t + 1`` is unvoiced or not
     available). Returns the chosen state of ``t`` and a provisional choice
     for ``t + 1`` (used by the display median). :meth:`reset` forgets the
-    previous frame (after a long silence).
+    past (after a long silence).
+
+    The tracker keeps, for every state of the last tracked frame, the cost of
+    the best path ending there (Viterbi's forward recursion, shifted so its
+    minimum is 0). Frame ``t`` takes ``argmin_s acc_t(s) + min_u [trans(s, u)
+    + cost_{t+1}(u)]``; the decisions need not form one connected path (a
+    choice is revised by later evidence, as the offline path would be).
+    A frame with no possible state is stepped over (the recursion links the
+    frames either side of it, as :func:`viterbi_segments` does).
     """
 
     def __init__(self, costs: TrackerCosts) -> None:
         self.costs = costs
         self.prev: np.ndarray | None = None   # (3,) formants chosen for the previous frame
+        self.acc: np.ndarray | None = None    # (S,) accumulated cost of the last tracked frame
+        self.sf: np.ndarray | None = None     # (S, 3) state values of the last tracked frame
+        self._look: tuple[np.ndarray, np.ndarray] | None = None   # (sf of the next frame, transitions to it)
 
     def reset(self) -> None:
         self.prev = None
+        self.acc = None
+        self.sf = None
+        self._look = None
 
     def step(self, cost_t: np.ndarray, sf_t: np.ndarray, cost_n: np.ndarray | None,
              sf_n: np.ndarray | None) -> tuple[int, int]:
         """Choose the state of frame t; returns ``(state_t, provisional_state_next)`` (-1 = none)."""
-        tot = cost_t.copy()
-        if self.prev is not None:
-            tot = tot + transition_costs(self.prev[None, :], sf_t, self.costs)[0]
-        look = None
-        if cost_n is not None and np.any(np.isfinite(cost_n)):
-            tr = transition_costs(sf_t, sf_n, self.costs) + cost_n[None, :]
-            tr = np.where(np.isfinite(tr), tr, np.inf)
-            look = tr
-            tot = tot + np.min(tr, axis=1)
-        if not np.any(np.isfinite(tot)):
-            if np.any(np.isfinite(cost_t)):       # lookahead impossible: decide on this frame alone
-                tot = cost_t.copy()
-                if self.prev is not None:
-                    tot = tot + transition_costs(self.prev[None, :], sf_t, self.costs)[0]
-                look = None
+        if not np.any(np.isfinite(cost_t)):
+            return -1, -1
+        if self.acc is None:
+            acc = cost_t.copy()
+        else:
+            # transitions into this frame were computed as the lookahead of the last step
+            if self._look is not None and self._look[0] is sf_t:
+                tr = self._look[1]
             else:
-                return -1, -1
+                tr = transition_costs(self.sf, sf_t, self.costs)
+            acc = np.min(self.acc[:, None] + tr, axis=0) + cost_t
+        acc = acc - np.min(acc)
+        tot = acc
+        look = None
+        self._look = None
+        if cost_n is not None and np.any(np.isfinite(cost_n)):
+            trn = transition_costs(sf_t, sf_n, self.costs)
+            self._look = (sf_n, trn)
+            look = trn + cost_n[None, :]
+            tot = acc + np.min(look, axis=1)
         st = int(np.argmin(tot))
-        nxt = int(np.argmin(look[st])) if look is not None and np.isfinite(look[st]).any() else -1
+        nxt = int(np.argmin(look[st])) if look is not None else -1
+        self.acc = acc
+        self.sf = sf_t
         self.prev = sf_t[st].copy()
         return st, nxt
 
