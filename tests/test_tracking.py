@@ -15,8 +15,9 @@ import pytest
 
 from livevowel.dsp.engine import AnalysisSettings, analyze
 from livevowel.dsp.synth import Schedule, Segment, render
-from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
-                                    state_table, transition_costs, viterbi_segments)
+from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, FrameCoster, TrackerCosts, local_costs,
+                                    local_costs_reference, median3, median3_reference, state_table,
+                                    transition_costs, transition_costs_reference, viterbi_segments)
 
 REF = np.array([444.0, 1387.0, 2255.0])
 COSTS = TrackerCosts()
@@ -235,3 +236,77 @@ def test_causal_engine_follows_vowel_switches_promptly(f0):
     /ɑ/ as F2 for the whole vowel here."""
     off = _switch_frame_offsets(16000, "adult_male", f0, seed=0)
     assert np.all(off <= 0.0125 + 0.020 + 1e-9), off
+
+
+def _random_tables(n=300, k=6, seed=0):
+    rng = np.random.default_rng(seed)
+    freq = np.sort(rng.uniform(100.0, 4500.0, (n, k)), axis=1)
+    count = rng.integers(1, k + 1, n)
+    freq[np.arange(k)[None, :] >= count[:, None]] = np.nan
+    bw = np.where(np.isnan(freq), np.nan, rng.uniform(20.0, 900.0, (n, k)))
+    f0 = np.where(rng.random(n) < 0.2, np.nan, rng.uniform(80.0, 450.0, n))
+    return freq, bw, f0
+
+
+@pytest.mark.parametrize("costs", [COSTS, TrackerCosts(w_skip=0.0, w_harm=0.0, miss_cost=0.5)])
+@pytest.mark.parametrize("max_hz", [None, np.array([1100.0, 2800.0, 3800.0])])
+def test_compiled_costs_equal_the_array_definitions(costs, max_hz):
+    """The compiled kernels compute the numpy definitions (equal to rounding; same choices)."""
+    freq, bw, f0 = _random_tables()
+    st = state_table(freq.shape[1])
+    got = local_costs(freq, bw, states=st, ref_hz=REF, f0_hz=f0, costs=costs, max_hz=max_hz)
+    want = local_costs_reference(freq, bw, states=st, ref_hz=REF, f0_hz=f0, costs=costs, max_hz=max_hz)
+    np.testing.assert_array_equal(np.isinf(got[0]), np.isinf(want[0]))
+    np.testing.assert_allclose(got[0], want[0], rtol=1e-12, atol=1e-12)
+    np.testing.assert_array_equal(got[1], want[1])
+    np.testing.assert_array_equal(got[2], want[2])
+    np.testing.assert_array_equal(np.argmin(got[0], axis=1), np.argmin(want[0], axis=1))
+    # one frame at a time (the streaming path): row for row the batched result
+    fc = FrameCoster(freq.shape[1], ref_hz=REF, costs=costs, max_hz=max_hz)
+    for i in range(0, len(freq), 37):
+        for a, b in zip(fc(freq[i], bw[i], f0[i]), (got[0][i], got[1][i], got[2][i])):
+            np.testing.assert_array_equal(a, b)
+    # a subset of the states (not the cached table), from strided input
+    sub = st[::3]
+    g2 = local_costs(np.asfortranarray(freq), bw, states=sub, ref_hz=REF, f0_hz=f0, costs=costs, max_hz=max_hz)
+    w2 = local_costs_reference(freq, bw, states=sub, ref_hz=REF, f0_hz=f0, costs=costs, max_hz=max_hz)
+    np.testing.assert_allclose(g2[0], w2[0], rtol=1e-12, atol=1e-12)
+    tr = transition_costs(got[1][5], got[1][6], costs)
+    np.testing.assert_allclose(tr, transition_costs_reference(got[1][5], got[1][6], costs), rtol=1e-12, atol=1e-12)
+
+
+def test_compiled_median_and_smoother_equal_the_array_definitions():
+    rng = np.random.default_rng(3)
+    x = rng.uniform(200.0, 3000.0, (200, 3, 3))
+    x[rng.random(x.shape) < 0.2] = np.nan
+    for a, b, c in x:
+        np.testing.assert_array_equal(median3(a, b, c), median3_reference(a, b, c))
+    one, two = DisplaySmoother(alpha_min=0.3, jump=0.1), DisplaySmoother(alpha_min=0.3, jump=0.1)
+    for a, b, c in x:
+        want = one.step(median3_reference(a, b, c)[None, :])[0]    # 2-D input: the numpy formula
+        np.testing.assert_array_equal(two.step_median(a, b, c), want)
+
+
+def test_causal_tracker_step_agrees_with_the_forward_recursion_written_out():
+    """Decisions equal argmin(acc + lookahead) with acc from the Viterbi recursion (numpy, by hand)."""
+    freq, bw, f0 = _random_tables(120, seed=5)
+    st = state_table(freq.shape[1])
+    cost, sf, _ = local_costs_reference(freq, bw, states=st, ref_hz=REF, f0_hz=f0, costs=COSTS)
+    tracker = CausalTracker(COSTS)
+    acc = prev_sf = None
+    for i in range(len(freq)):
+        cn, sn = (cost[i + 1], sf[i + 1]) if i + 1 < len(freq) else (None, None)
+        got = tracker.step(cost[i], sf[i], cn, sn)
+        if not np.isfinite(cost[i]).any():
+            assert got == (-1, -1)
+            continue
+        a = cost[i].copy() if acc is None else (
+            np.min(acc[:, None] + transition_costs_reference(prev_sf, sf[i], COSTS), axis=0) + cost[i])
+        acc, prev_sf = a - a.min(), sf[i]
+        tot = acc.copy()
+        nxt = -1
+        if cn is not None and np.isfinite(cn).any():
+            look = transition_costs_reference(sf[i], sn, COSTS) + cn[None, :]
+            tot = acc + look.min(axis=1)
+            nxt = int(np.argmin(look[int(np.argmin(tot))]))
+        assert got == (int(np.argmin(tot)), nxt)

@@ -88,8 +88,8 @@ from livevowel.dsp.lpc import METHODS as LPC_METHODS
 from livevowel.dsp.lpc import _companion, formant_candidates, lpc
 from livevowel.dsp.pitch import frame_level_db, voicing_hysteresis, yin, yin_frame_length
 from livevowel.dsp.resample import StreamResampler, resample
-from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
-                                    state_table, viterbi_segments)
+from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, FrameCoster, TrackerCosts, local_costs,
+                                    median3, state_table, viterbi_segments)
 from livevowel.dsp.types import Frame, FrameTrack
 from livevowel.errors import UserError
 
@@ -950,8 +950,11 @@ class StreamingAnalyzer:
         self._costs = s.costs()
         self._tracker = CausalTracker(self._costs)
         self._smoother = DisplaySmoother(alpha_min=s.smoother_alpha, jump=s.smoother_jump)
+        self._costers: dict[str, FrameCoster] = {}   # voice -> one-frame local costs of its plan
+        self._nan3 = np.full(3, np.nan)
+        self._nan3.setflags(write=False)
         self._queue: list[dict] = []        # assembled frames awaiting their lookahead
-        self._prev_raw = np.full(3, np.nan)
+        self._prev_raw = self._nan3
         self._last_out: dict | None = None
         self._gap = 0
         self._flushed = False
@@ -1082,7 +1085,7 @@ class StreamingAnalyzer:
         f0 = float(p["f0_hz"]) if voiced else float("nan")
         plan = self.plans[self.active]     # candidates of this frame come from the voice active now
         # causal auto voice: settle at a fixed frame; the switch applies from the next frame
-        if not self.settled and voiced and np.isfinite(f0):
+        if not self.settled and voiced and math.isfinite(f0):
             self._voiced_f0.append(f0)
             if len(self._voiced_f0) >= self._settle_frames:
                 self._settle(voice_from_f0(float(np.median(self._voiced_f0))), k)
@@ -1090,10 +1093,12 @@ class StreamingAnalyzer:
                "time": (k * self.plans[self.primary].hop + (self.plans[self.primary].n - 1) / 2.0)
                / self.plans[self.primary].rate_hz, "cost": None, "sf": None, "sb": None}
         if voiced and cand is not None:
-            cost, sf, sb = local_costs(cand["cand_f"][None, :], cand["cand_b"][None, :],
-                                       states=state_table(plan.order // 2), ref_hz=plan.ref_hz,
-                                       f0_hz=np.array([f0]), costs=self._costs, max_hz=plan.max_hz)
-            rec.update(cost=cost[0], sf=sf[0], sb=sb[0])
+            coster = self._costers.get(plan.voice)
+            if coster is None:
+                coster = self._costers[plan.voice] = FrameCoster(plan.order // 2, ref_hz=plan.ref_hz,
+                                                                 costs=self._costs, max_hz=plan.max_hz)
+            # = local_costs(cand_f[None], cand_b[None], states=state_table(order // 2), ...)[row 0]
+            rec["cost"], rec["sf"], rec["sb"] = coster(cand["cand_f"], cand["cand_b"], f0)
         return rec
 
     def _settle(self, voice: str, k: int) -> None:
@@ -1114,7 +1119,7 @@ class StreamingAnalyzer:
 
     def _finalize(self, rec: dict, nxt: dict | None) -> Frame:
         s = self.settings
-        nan3 = np.full(3, np.nan)
+        nan3 = self._nan3
         raw_f, raw_b, prov = nan3, nan3, nan3
         if rec["cost"] is not None:
             cn = sn = None
@@ -1125,9 +1130,9 @@ class StreamingAnalyzer:
                 raw_f, raw_b = rec["sf"][st], rec["sb"][st]
                 if pst >= 0 and sn is not None:
                     prov = sn[pst]
-        if np.isfinite(raw_f[0]):
-            med = median3(self._prev_raw, raw_f, prov)
-            out_f = self._smoother.step(med)
+        if math.isfinite(raw_f[0]):
+            # median of three (previous, current, provisional next), then the adaptive one-pole
+            out_f = self._smoother.step_median(self._prev_raw, raw_f, prov)
             self._prev_raw = raw_f
             self._gap = 0
             conf = _confidence_one(out_f, raw_b, raw_f, rec["aper"], rec["level"], s.voicing_floor_db)
@@ -1150,7 +1155,8 @@ class StreamingAnalyzer:
         if rec["level"] <= -119.0 and not rec["voiced"]:
             self._silent_frames += 1
         self._frames_out += 1
+        f1, f2, f3 = out_f.tolist()
+        b1, b2, b3 = out_b.tolist()
         return Frame(time_s=float(rec["time"]), voiced=bool(rec["voiced"]), f0_hz=float(rec["f0"]),
-                     f1_hz=float(out_f[0]), f2_hz=float(out_f[1]), f3_hz=float(out_f[2]),
-                     b1_hz=float(out_b[0]), b2_hz=float(out_b[1]), b3_hz=float(out_b[2]),
+                     f1_hz=f1, f2_hz=f2, f3_hz=f3, b1_hz=b1, b2_hz=b2, b3_hz=b3,
                      level_db=float(rec["level"]), confidence=conf)
