@@ -17,7 +17,8 @@ from livevowel.dsp.engine import AnalysisSettings, analyze
 from livevowel.dsp.synth import Schedule, Segment, render
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, FrameCoster, TrackerCosts, local_costs,
                                     local_costs_reference, median3, median3_reference, state_table,
-                                    transition_costs, transition_costs_reference, viterbi_segments)
+                                    transition_costs, transition_costs_reference, viterbi_segments,
+                                    viterbi_segments_reference)
 
 REF = np.array([444.0, 1387.0, 2255.0])
 COSTS = TrackerCosts()
@@ -310,3 +311,14 @@ def test_causal_tracker_step_agrees_with_the_forward_recursion_written_out():
             tot = acc + look.min(axis=1)
             nxt = int(np.argmin(look[int(np.argmin(tot))]))
         assert got == (int(np.argmin(tot)), nxt)
+
+
+def test_compiled_viterbi_equals_the_array_definition():
+    freq, bw, f0 = _random_tables(400, seed=7)
+    st = state_table(freq.shape[1])
+    cost, sf, _ = local_costs(freq, bw, states=st, ref_hz=REF, f0_hz=f0, costs=COSTS)
+    start = np.zeros(len(freq), bool)
+    start[[0, 50, 51, 200]] = True
+    got = viterbi_segments(cost, sf, start, COSTS)
+    np.testing.assert_array_equal(got, viterbi_segments_reference(cost, sf, start, COSTS))
+    assert np.all(got[~np.isfinite(cost).any(axis=1)] == -1)

@@ -776,14 +776,12 @@ def _offline_track(feat: dict, voiced: np.ndarray, times: np.ndarray, plan: _Pla
     out_b = raw_b.copy()
     # hold short gaps (unvoiced frames, or voiced ones with no formant reading),
     # as the causal path does
-    last = -10**9
-    for i in range(n):
-        if np.isfinite(sm[i, 0]):
-            last = i
-            continue
-        if last >= 0 and i - last <= hold_frames:
-            out_f[i] = out_f[last]
-            out_b[i] = out_b[last]
+    have = np.isfinite(sm[:, 0])
+    pos = np.arange(n)
+    last = np.maximum.accumulate(np.where(have, pos, -1)) if n else pos   # last measured frame so far
+    held = ~have & (last >= 0) & (pos - last <= hold_frames)
+    out_f[held] = sm[last[held]]
+    out_b[held] = raw_b[last[held]]
     conf = np.where(voiced, conf, 0.0)
     return FrameTrack(time_s=times, voiced=voiced, f0_hz=np.where(voiced, feat["f0_hz"], np.nan),
                       f1_hz=out_f[:, 0], f2_hz=out_f[:, 1], f3_hz=out_f[:, 2], b1_hz=out_b[:, 0],

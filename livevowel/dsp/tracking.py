@@ -73,6 +73,7 @@ __all__ = [
     "local_costs_reference",
     "transition_costs_reference",
     "median3_reference",
+    "viterbi_segments_reference",
 ]
 
 
@@ -429,6 +430,78 @@ def viterbi_segments(cost: np.ndarray, sf: np.ndarray, segment_start: np.ndarray
     start[0] = True
     # segments; inside one, frames with no possible state are stepped over
     # (the path links the feasible frames either side of them)
+    bounds = list(np.flatnonzero(start)) + [n]
+    for a, b in zip(bounds[:-1], bounds[1:]):
+        idx = np.flatnonzero(feasible[a:b]) + a
+        if not len(idx):
+            continue
+        with np.errstate(invalid="ignore", divide="ignore"):
+            logf = np.log(sf[idx])                # (len, S, 3); NaN where missing
+        logf = np.where(np.isfinite(logf), logf, np.nan)
+        best[idx] = _viterbi_kernel(np.ascontiguousarray(cost[idx], dtype=np.float64), logf,
+                                    float(costs.w_trans))
+    return best
+
+
+@jit
+def _viterbi_kernel(cost, logf, w_trans):  # pragma: no cover - compiled
+    """Best path through one segment: ``cost (m, S)``, ``logf (m, S, 3)`` (NaN = missing) -> ``(m,)``.
+
+    Transition ``w_trans * sum_i |logf[j, s, i] - logf[j-1, p, i]|`` (missing terms count 0);
+    ties go to the lowest state index.
+    """
+    m, n_states = cost.shape
+    back = np.zeros((m, n_states), dtype=np.int64)
+    acc = cost[0].copy()
+    new = np.empty(n_states)
+    for j in range(1, m):
+        for s in range(n_states):
+            c0 = logf[j, s, 0]
+            c1 = logf[j, s, 1]
+            c2 = logf[j, s, 2]
+            lo = math.inf
+            arg = 0
+            for p in range(n_states):
+                d0 = abs(c0 - logf[j - 1, p, 0])
+                d1 = abs(c1 - logf[j - 1, p, 1])
+                d2 = abs(c2 - logf[j - 1, p, 2])
+                if math.isnan(d0):
+                    d0 = 0.0
+                if math.isnan(d1):
+                    d1 = 0.0
+                if math.isnan(d2):
+                    d2 = 0.0
+                v = acc[p] + w_trans * (d0 + d1 + d2)
+                if v < lo:
+                    lo = v
+                    arg = p
+            back[j, s] = arg
+            new[s] = lo + cost[j, s]
+        for s in range(n_states):
+            acc[s] = new[s]
+    path = np.empty(m, dtype=np.int64)
+    st = 0
+    lo = math.inf
+    for s in range(n_states):
+        if acc[s] < lo:
+            lo = acc[s]
+            st = s
+    for j in range(m - 1, -1, -1):
+        path[j] = st
+        st = back[j, st]
+    return path
+
+
+def viterbi_segments_reference(cost: np.ndarray, sf: np.ndarray, segment_start: np.ndarray,
+                               costs: TrackerCosts) -> np.ndarray:
+    """:func:`viterbi_segments` with numpy array operations (the definition; slower)."""
+    n, s = cost.shape
+    best = np.full(n, -1, dtype=np.int64)
+    if n == 0:
+        return best
+    feasible = np.isfinite(cost).any(axis=1)
+    start = np.asarray(segment_start, dtype=bool).copy()
+    start[0] = True
     bounds = list(np.flatnonzero(start)) + [n]
     for a, b in zip(bounds[:-1], bounds[1:]):
         idx = [t for t in range(a, b) if feasible[t]]
