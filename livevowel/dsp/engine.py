@@ -1133,7 +1133,8 @@ class StreamingAnalyzer:
             out_f = self._smoother.step_median(self._prev_raw, raw_f, prov)
             self._prev_raw = raw_f
             self._gap = 0
-            conf = _confidence_one(out_f, raw_b, raw_f, rec["aper"], rec["level"], s.voicing_floor_db)
+            conf = _confidence_one(out_f.tolist(), raw_b.tolist(), raw_f.tolist(), rec["aper"], rec["level"],
+                                   s.voicing_floor_db)
             out_b = raw_b
             self._last_out = {"f": out_f, "b": out_b}
         else:

@@ -38,6 +38,14 @@ three (previous, current, provisional next) followed by an adaptive
 one-pole filter that passes large moves at once (resets on jumps) and
 smooths small jitter.
 
+Speed: the loops are compiled (:mod:`livevowel.dsp._jit`). The live path
+costs one frame at a time (:class:`FrameCoster`, :meth:`CausalTracker.step`,
+:meth:`DisplaySmoother.step_median`: a few tens of microseconds per hop in
+all, most of it call overhead). The numpy versions the kernels were checked
+against stay as ``*_reference`` functions (equal to rounding: the kernels use
+the C library's ``log``/``exp``; the Viterbi kernel takes numpy's logarithms
+and gives the same paths exactly).
+
 References
 ----------
 Viterbi, A. J. (1967). Error bounds for convolutional codes and an
@@ -200,14 +208,10 @@ def _local_costs_kernel(freq, bw, states, skipped, ref, f0, max_hz, use_max, w_f
 
 
 @jit
-def _local_costs_one(freq, bw, f0t, states, skipped, ref, max_hz, use_max, weights):  # pragma: no cover
-    n_states = states.shape[0]
-    cost = np.empty(n_states)
-    sf = np.empty((n_states, 3))
-    sb = np.empty((n_states, 3))
+def _local_costs_one(freq, bw, f0t, states, skipped, ref, max_hz, use_max, weights, cost, sf,
+                     sb):  # pragma: no cover - compiled
     _costs_row(freq, bw, f0t, states, skipped, ref, max_hz, use_max, weights[0], weights[1], weights[2],
                weights[3], weights[4], weights[5], weights[6], cost, sf, sb)
-    return cost, sf, sb
 
 
 class FrameCoster:
@@ -233,14 +237,23 @@ class FrameCoster:
         bw = _as_f64(bw)
         if freq.shape != (self.k,) or bw.shape != (self.k,):
             raise ValueError(f"freq and bw must be ({self.k},); got {freq.shape} and {bw.shape}")
-        return _local_costs_one(freq, bw, float(f0_hz), self.states, self._skipped, self._ref, self._max,
-                                self._use_max, self._w)
+        n_states = self.states.shape[0]
+        cost = np.empty(n_states)
+        sf = np.empty((n_states, 3))
+        sb = np.empty((n_states, 3))
+        _local_costs_one(freq, bw, float(f0_hz), self.states, self._skipped, self._ref, self._max,
+                         self._use_max, self._w, cost, sf, sb)
+        return cost, sf, sb
+
+
+_F64 = np.dtype(np.float64)
 
 
 def _as_f64(a) -> np.ndarray:
-    if type(a) is np.ndarray and a.dtype == np.float64 and a.flags.c_contiguous:
+    """``a`` as a float64 ndarray (no copy when it already is one; the kernels take any strides)."""
+    if type(a) is np.ndarray and a.dtype is _F64:
         return a
-    return np.ascontiguousarray(a, dtype=np.float64)
+    return np.asarray(a, dtype=np.float64)
 
 
 def local_costs(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz: np.ndarray,
