@@ -322,3 +322,16 @@ def test_compiled_viterbi_equals_the_array_definition():
     got = viterbi_segments(cost, sf, start, COSTS)
     np.testing.assert_array_equal(got, viterbi_segments_reference(cost, sf, start, COSTS))
     assert np.all(got[~np.isfinite(cost).any(axis=1)] == -1)
+
+
+def test_mismatched_shapes_are_refused():
+    st = state_table(6)
+    cost, sf, _ = local_costs(np.array([[500.0, 1500.0, 2500.0, np.nan, np.nan, np.nan]]),
+                              np.array([[80.0, 90.0, 100.0, np.nan, np.nan, np.nan]]), states=st, ref_hz=REF,
+                              f0_hz=np.array([np.nan]), costs=COSTS)
+    with pytest.raises(ValueError):
+        CausalTracker(COSTS).step(cost[0][:-1], sf[0], None, None)
+    with pytest.raises(ValueError):
+        viterbi_segments(cost, sf[:, :-1], np.array([True]), COSTS)
+    with pytest.raises(ValueError):
+        FrameCoster(6, ref_hz=REF, costs=COSTS)(np.zeros(5), np.zeros(5), 100.0)

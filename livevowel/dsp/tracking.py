@@ -434,12 +434,18 @@ def viterbi_segments(cost: np.ndarray, sf: np.ndarray, segment_start: np.ndarray
     ndarray of int, shape (n,)
         Chosen state index per frame (-1 where every state is impossible).
     """
+    cost = np.asarray(cost, dtype=np.float64)
+    sf = np.asarray(sf, dtype=np.float64)
+    if cost.ndim != 2 or sf.shape != cost.shape + (3,):
+        raise ValueError(f"need cost (n, S) and sf (n, S, 3); got {cost.shape} and {sf.shape}")
     n, s = cost.shape
     best = np.full(n, -1, dtype=np.int64)
     if n == 0:
         return best
     feasible = np.isfinite(cost).any(axis=1)
     start = np.asarray(segment_start, dtype=bool).copy()
+    if start.shape != (n,):
+        raise ValueError(f"segment_start must have shape ({n},), got {start.shape}")
     start[0] = True
     # segments; inside one, frames with no possible state are stepped over
     # (the path links the feasible frames either side of them)
@@ -583,9 +589,13 @@ class CausalTracker:
 
         ``cost_t (S,)``, ``sf_t (S, 3)``: local costs and state values of frame t (from
         :func:`local_costs`); ``cost_n``, ``sf_n`` the same for frame t + 1, or None.
+        The transitions into frame t + 1 are kept for the next call when it passes the
+        same ``sf_n`` object as its ``sf_t``: do not change those arrays in place.
         """
         cost_t = _as_f64(cost_t)
         sf_t = _as_f64(sf_t)
+        if cost_t.ndim != 1 or sf_t.shape != (cost_t.shape[0], 3):
+            raise ValueError(f"need cost_t (S,) and sf_t (S, 3); got {cost_t.shape} and {sf_t.shape}")
         have_prev = self.acc is not None
         if have_prev:
             look = self._look
@@ -602,6 +612,8 @@ class CausalTracker:
         if have_next:
             cost_n = _as_f64(cost_n)
             sf_n = _as_f64(sf_n)
+            if cost_n.ndim != 1 or sf_n.shape != (cost_n.shape[0], 3):
+                raise ValueError(f"need cost_n (S,) and sf_n (S, 3); got {cost_n.shape} and {sf_n.shape}")
             trn = np.empty((sf_t.shape[0], sf_n.shape[0]))
         else:
             cost_n, sf_n, trn = _EMPTY1, _EMPTY3, _EMPTY2
@@ -697,7 +709,7 @@ def median3(a: np.ndarray, b: np.ndarray, c: np.ndarray) -> np.ndarray:
     c = np.asarray(c, dtype=np.float64)
     if a.shape == b.shape == c.shape and a.ndim == 1:
         out = np.empty(b.shape)
-        _median3_kernel(_as_f64(a), _as_f64(b), _as_f64(c), out)
+        _median3_kernel(a, b, c, out)
         return out
     return median3_reference(a, b, c)
 
