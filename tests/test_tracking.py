@@ -1,9 +1,10 @@
 """Candidate-to-formant assignment, Viterbi and causal tracking, display smoothing.
 
 Candidate tables here are processes with known answers (a formant track
-plus distractors placed by construction); the step-response check uses the
-Klatt synthesiser with Peterson & Barney (1952) men's /i/ and /ɑ/ means
-(from memory).
+plus distractors placed by construction); the step-response and vowel-switch
+checks use the Klatt synthesiser with Peterson & Barney (1952) men's /i/ and
+/ɑ/ means (from memory). The compiled kernels are also checked against the
+numpy definitions they replace (``*_reference``) on random candidate tables.
 """
 
 from __future__ import annotations
