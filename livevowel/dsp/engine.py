@@ -949,8 +949,7 @@ class StreamingAnalyzer:
         self._tracker = CausalTracker(self._costs)
         self._smoother = DisplaySmoother(alpha_min=s.smoother_alpha, jump=s.smoother_jump)
         self._costers: dict[str, FrameCoster] = {}   # voice -> one-frame local costs of its plan
-        self._nan3 = np.full(3, np.nan)
-        self._nan3.setflags(write=False)
+        self._nan3 = np.full(3, np.nan)     # never written (writeable: one kernel signature)
         self._queue: list[dict] = []        # assembled frames awaiting their lookahead
         self._prev_raw = self._nan3
         self._last_out: dict | None = None
@@ -1083,7 +1082,7 @@ class StreamingAnalyzer:
         f0 = float(p["f0_hz"]) if voiced else float("nan")
         plan = self.plans[self.active]     # candidates of this frame come from the voice active now
         # causal auto voice: settle at a fixed frame; the switch applies from the next frame
-        if not self.settled and voiced and math.isfinite(f0):
+        if not self.settled and voiced and np.isfinite(f0):
             self._voiced_f0.append(f0)
             if len(self._voiced_f0) >= self._settle_frames:
                 self._settle(voice_from_f0(float(np.median(self._voiced_f0))), k)
@@ -1154,8 +1153,7 @@ class StreamingAnalyzer:
         if rec["level"] <= -119.0 and not rec["voiced"]:
             self._silent_frames += 1
         self._frames_out += 1
-        f1, f2, f3 = out_f.tolist()
-        b1, b2, b3 = out_b.tolist()
         return Frame(time_s=float(rec["time"]), voiced=bool(rec["voiced"]), f0_hz=float(rec["f0"]),
-                     f1_hz=f1, f2_hz=f2, f3_hz=f3, b1_hz=b1, b2_hz=b2, b3_hz=b3,
+                     f1_hz=float(out_f[0]), f2_hz=float(out_f[1]), f3_hz=float(out_f[2]),
+                     b1_hz=float(out_b[0]), b2_hz=float(out_b[1]), b3_hz=float(out_b[2]),
                      level_db=float(rec["level"]), confidence=conf)

@@ -225,7 +225,7 @@ class FrameCoster:
     def __init__(self, k: int, *, ref_hz: np.ndarray, costs: TrackerCosts, max_hz: np.ndarray | None = None) -> None:
         self.k = int(k)
         self.states = _state_table(self.k)
-        self._skipped = _skipped_t(self.k)
+        self._states, self._skipped = _kernel_tables(self.k)
         self._ref = np.array(ref_hz, dtype=np.float64).reshape(3)
         self._use_max = max_hz is not None
         self._max = np.array(max_hz, dtype=np.float64).reshape(3) if max_hz is not None else _NO_MAX
@@ -241,7 +241,7 @@ class FrameCoster:
         cost = np.empty(n_states)
         sf = np.empty((n_states, 3))
         sb = np.empty((n_states, 3))
-        _local_costs_one(freq, bw, float(f0_hz), self.states, self._skipped, self._ref, self._max,
+        _local_costs_one(freq, bw, float(f0_hz), self._states, self._skipped, self._ref, self._max,
                          self._use_max, self._w, cost, sf, sb)
         return cost, sf, sb
 
@@ -250,10 +250,16 @@ _F64 = np.dtype(np.float64)
 
 
 def _as_f64(a) -> np.ndarray:
-    """``a`` as a float64 ndarray (no copy when it already is one; the kernels take any strides)."""
+    """``a`` as a writeable C-contiguous float64 array, copied only when it is not one already.
+
+    One array type per kernel argument keeps one compiled signature per kernel
+    (each further one costs seconds of compiling on a fresh machine).
+    """
     if type(a) is np.ndarray and a.dtype is _F64:
-        return a
-    return np.asarray(a, dtype=np.float64)
+        fl = a.flags
+        if fl.c_contiguous and fl.writeable:
+            return a
+    return np.require(a, dtype=np.float64, requirements="CW")
 
 
 def local_costs(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz: np.ndarray,
@@ -292,17 +298,17 @@ def local_costs(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz:
     if freq.ndim != 2 or bw.shape != freq.shape:
         raise ValueError(f"freq and bw must both be (n, K); got {freq.shape} and {bw.shape}")
     n, k = freq.shape
-    table = _state_table(k)
-    if states is table:
-        skipped_t = _skipped_t(k)
+    if states is _state_table(k):
+        states, skipped_t = _kernel_tables(k)
     else:
-        states = np.ascontiguousarray(states, dtype=np.int64)
+        states = np.require(states, dtype=np.int64, requirements="CW")
         if states.ndim != 2 or states.shape[1] != 3 or (states.size and states.max() >= k):
             raise ValueError(f"states must be (S, 3) slot indices below {k}")
         skipped_t = _skipped_matrix(states, k)
     f0 = np.asarray(f0_hz, dtype=np.float64).reshape(-1)
     if f0.shape[0] != n:
-        f0 = np.ascontiguousarray(np.broadcast_to(f0, (n,)))
+        f0 = np.broadcast_to(f0, (n,))
+    f0 = _as_f64(f0)
     ref = _as_f64(ref_hz)
     mx = _NO_MAX if max_hz is None else _as_f64(max_hz)
     s_n = states.shape[0]
@@ -315,7 +321,7 @@ def local_costs(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz:
     return cost, sf, sb
 
 
-_NO_MAX = np.zeros(3)
+_NO_MAX = np.zeros(3)      # placeholder when there is no upper limit (never written)
 
 
 def local_costs_reference(freq: np.ndarray, bw: np.ndarray, *, states: np.ndarray, ref_hz: np.ndarray,
@@ -367,6 +373,12 @@ def _skipped_t(k: int) -> np.ndarray:
     out = _skipped_matrix(_state_table(k), k)
     out.setflags(write=False)
     return out
+
+
+@lru_cache(maxsize=16)
+def _kernel_tables(k: int) -> tuple[np.ndarray, np.ndarray]:
+    """Writeable copies of the state table and skip matrix for the kernels (which never write them)."""
+    return np.array(_state_table(k)), np.array(_skipped_t(k))
 
 
 @jit
@@ -597,17 +609,17 @@ class CausalTracker:
         if cost_t.ndim != 1 or sf_t.shape != (cost_t.shape[0], 3):
             raise ValueError(f"need cost_t (S,) and sf_t (S, 3); got {cost_t.shape} and {sf_t.shape}")
         have_prev = self.acc is not None
+        tr_ready = False
         if have_prev:
             look = self._look
             if look is not None and look[0] is sf_t:
                 tr = look[1]       # transitions into this frame: the lookahead of the last step
+                tr_ready = True
             else:
-                tr = np.empty((self.sf.shape[0], sf_t.shape[0]))
-                _transitions_kernel(self.sf, sf_t, self._w_trans, tr)
-            acc_prev = self.acc
+                tr = np.empty((self.sf.shape[0], sf_t.shape[0]))   # filled by the kernel
+            acc_prev, sf_prev = self.acc, self.sf
         else:
-            tr = _EMPTY2
-            acc_prev = _EMPTY1
+            tr, acc_prev, sf_prev = _EMPTY2, _EMPTY1, _EMPTY3
         have_next = cost_n is not None
         if have_next:
             cost_n = _as_f64(cost_n)
@@ -618,8 +630,8 @@ class CausalTracker:
         else:
             cost_n, sf_n, trn = _EMPTY1, _EMPTY3, _EMPTY2
         acc = np.empty(sf_t.shape[0])
-        st, nxt, looked = _forward_step(acc_prev, tr, have_prev, cost_t, sf_t, cost_n, sf_n, have_next,
-                                        self._w_trans, acc, trn)
+        st, nxt, looked = _forward_step(acc_prev, sf_prev, tr, have_prev, tr_ready, cost_t, sf_t, cost_n, sf_n,
+                                        have_next, self._w_trans, acc, trn)
         if st < 0:
             return -1, -1
         self._look = (sf_n, trn) if looked else None
@@ -635,9 +647,13 @@ _EMPTY3 = np.empty((0, 3))
 
 
 @jit
-def _forward_step(acc_prev, tr, have_prev, cost_t, sf_t, cost_n, sf_n, have_next, w_trans, acc,
-                  trn):  # pragma: no cover - compiled
-    """One step of :class:`CausalTracker` -> (state, provisional next state, lookahead used)."""
+def _forward_step(acc_prev, sf_prev, tr, have_prev, tr_ready, cost_t, sf_t, cost_n, sf_n, have_next, w_trans,
+                  acc, trn):  # pragma: no cover - compiled
+    """One step of :class:`CausalTracker` -> (state, provisional next state, lookahead used).
+
+    ``tr`` holds the transitions from the last tracked frame (``sf_prev``) when ``tr_ready``,
+    else it is filled here; ``trn`` receives those into the next frame when it is looked at.
+    """
     s_n = cost_t.shape[0]
     any_t = False
     for s in range(s_n):
@@ -646,6 +662,8 @@ def _forward_step(acc_prev, tr, have_prev, cost_t, sf_t, cost_n, sf_n, have_next
             break
     if not any_t:
         return -1, -1, False
+    if have_prev and not tr_ready:
+        _transitions_kernel(sf_prev, sf_t, w_trans, tr)
     if have_prev:
         for s in range(s_n):
             m = math.inf
@@ -709,7 +727,7 @@ def median3(a: np.ndarray, b: np.ndarray, c: np.ndarray) -> np.ndarray:
     c = np.asarray(c, dtype=np.float64)
     if a.shape == b.shape == c.shape and a.ndim == 1:
         out = np.empty(b.shape)
-        _median3_kernel(a, b, c, out)
+        _median3_kernel(_as_f64(a), _as_f64(b), _as_f64(c), out)
         return out
     return median3_reference(a, b, c)
 
