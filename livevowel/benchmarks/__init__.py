@@ -25,6 +25,7 @@ SUITES: dict[str, str] = {
     "synth": "synth",
     "targets": "targets",
     "live": "live",
+    "tracking": "tracking",
     "session": "session",
 }
 

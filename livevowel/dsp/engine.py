@@ -94,8 +94,8 @@ from livevowel.dsp.lpc import _autocorrelation_lpc_kernel, candidates_from_coeff
 from livevowel.dsp.pitch import LEVEL_FLOOR_DB as _LEVEL_FLOOR_DB
 from livevowel.dsp.pitch import _lags, _yin_kernel, frame_level_db, voicing_hysteresis, yin, yin_frame_length
 from livevowel.dsp.resample import StreamResampler, resample
-from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, TrackerCosts, local_costs, median3,
-                                    state_table, viterbi_segments)
+from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, FrameCoster, TrackerCosts, local_costs,
+                                    median3, state_table, viterbi_segments)
 from livevowel.dsp.types import Frame, FrameTrack
 from livevowel.dsp.voicegroup import add_frame_cost, voice_from_costs, voice_from_frames
 from livevowel.errors import UserError
@@ -866,14 +866,12 @@ def _offline_track(feat: dict, voiced: np.ndarray, times: np.ndarray, plan: _Pla
     out_b = raw_b.copy()
     # hold short gaps (unvoiced frames, or voiced ones with no formant reading),
     # as the causal path does
-    last = -10**9
-    for i in range(n):
-        if np.isfinite(sm[i, 0]):
-            last = i
-            continue
-        if last >= 0 and i - last <= hold_frames:
-            out_f[i] = out_f[last]
-            out_b[i] = out_b[last]
+    have = np.isfinite(sm[:, 0])
+    pos = np.arange(n)
+    last = np.maximum.accumulate(np.where(have, pos, -1)) if n else pos   # last measured frame so far
+    held = ~have & (last >= 0) & (pos - last <= hold_frames)
+    out_f[held] = sm[last[held]]
+    out_b[held] = raw_b[last[held]]
     conf = np.where(voiced, conf, 0.0)
     return FrameTrack(time_s=times, voiced=voiced, f0_hz=np.where(voiced, feat["f0_hz"], np.nan),
                       f1_hz=out_f[:, 0], f2_hz=out_f[:, 1], f3_hz=out_f[:, 2], b1_hz=out_b[:, 0],
@@ -1041,8 +1039,10 @@ class StreamingAnalyzer:
         self._costs = s.costs()
         self._tracker = CausalTracker(self._costs)
         self._smoother = DisplaySmoother(alpha_min=s.smoother_alpha, jump=s.smoother_jump)
+        self._costers: dict[str, FrameCoster] = {}   # voice -> one-frame local costs of its plan
+        self._nan3 = np.full(3, np.nan)     # never written (writeable: one kernel signature)
         self._queue: list[dict] = []        # assembled frames awaiting their lookahead
-        self._prev_raw = np.full(3, np.nan)
+        self._prev_raw = self._nan3
         self._last_out: dict | None = None
         self._gap = 0
         self._flushed = False
@@ -1184,10 +1184,12 @@ class StreamingAnalyzer:
                "time": (k * self.plans[self.primary].hop + (self.plans[self.primary].n - 1) / 2.0)
                / self.plans[self.primary].rate_hz, "cost": None, "sf": None, "sb": None}
         if voiced and cand is not None:
-            cost, sf, sb = local_costs(cand["cand_f"][None, :], cand["cand_b"][None, :],
-                                       states=state_table(plan.order // 2), ref_hz=plan.ref_hz,
-                                       f0_hz=np.array([f0]), costs=self._costs, max_hz=plan.max_hz)
-            rec.update(cost=cost[0], sf=sf[0], sb=sb[0])
+            coster = self._costers.get(plan.voice)
+            if coster is None:
+                coster = self._costers[plan.voice] = FrameCoster(plan.order // 2, ref_hz=plan.ref_hz,
+                                                                 costs=self._costs, max_hz=plan.max_hz)
+            # = local_costs(cand_f[None], cand_b[None], states=state_table(order // 2), ...)[row 0]
+            rec["cost"], rec["sf"], rec["sb"] = coster(cand["cand_f"], cand["cand_b"], f0)
         return rec
 
     def _settle(self, voice: str, k: int) -> None:
@@ -1208,7 +1210,7 @@ class StreamingAnalyzer:
 
     def _finalize(self, rec: dict, nxt: dict | None) -> Frame:
         s = self.settings
-        nan3 = np.full(3, np.nan)
+        nan3 = self._nan3
         raw_f, raw_b, prov = nan3, nan3, nan3
         if rec["cost"] is not None:
             cn = sn = None
@@ -1219,12 +1221,13 @@ class StreamingAnalyzer:
                 raw_f, raw_b = rec["sf"][st], rec["sb"][st]
                 if pst >= 0 and sn is not None:
                     prov = sn[pst]
-        if np.isfinite(raw_f[0]):
-            med = median3(self._prev_raw, raw_f, prov)
-            out_f = self._smoother.step(med)
+        if math.isfinite(raw_f[0]):
+            # median of three (previous, current, provisional next), then the adaptive one-pole
+            out_f = self._smoother.step_median(self._prev_raw, raw_f, prov)
             self._prev_raw = raw_f
             self._gap = 0
-            conf = _confidence_one(out_f, raw_b, raw_f, rec["aper"], rec["level"], s.voicing_floor_db)
+            conf = _confidence_one(out_f.tolist(), raw_b.tolist(), raw_f.tolist(), rec["aper"], rec["level"],
+                                   s.voicing_floor_db)
             out_b = raw_b
             self._last_out = {"f": out_f, "b": out_b}
         else:
