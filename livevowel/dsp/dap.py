@@ -122,11 +122,17 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
     freq = np.zeros((n, m))
     power = np.ones((n, m))
     weight = np.zeros((n, m))
-    for i in range(n):
-        if counts[i] > 0:
-            _harmonics_kernel(spec[i], float(f0[i]), rate / nfft, int(counts[i]), float(search), bool(noise_floor),
-                              wspec, freq[i], power[i], weight[i])
+    f0c = np.require(f0, requirements="CW")
+    _harmonics_rows_kernel(spec, f0c, rate / nfft, counts, float(search), bool(noise_floor), wspec, freq, power, weight)
     return freq, power, weight
+
+
+@jit
+def _harmonics_rows_kernel(spec, f0, df, counts, search, noise_floor, wspec, freq, power, weight):  # pragma: no cover
+    """:func:`_harmonics_kernel` for every row with harmonics (one call for a batch)."""
+    for i in range(spec.shape[0]):
+        if counts[i] > 0:
+            _harmonics_kernel(spec[i], f0[i], df, counts[i], search, noise_floor, wspec, freq[i], power[i], weight[i])
 
 
 _NO_WINDOW = np.zeros(0)
@@ -270,9 +276,15 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
         raise ValueError(f"order must be at least 1, got {order!r}")
     a = np.empty((n, p + 1))
     ok = np.zeros(n, dtype=bool)
-    for i in range(n):
-        ok[i] = _dap_kernel(f[i], pw[i], w[i], p, float(rate_hz), int(iterations), a[i])
+    _dap_rows_kernel(f, pw, w, p, float(rate_hz), int(iterations), a, ok)
     return a, ok
+
+
+@jit
+def _dap_rows_kernel(freq_hz, power, w, p, rate_hz, iterations, a, ok):  # pragma: no cover - compiled
+    """:func:`_dap_kernel` for every row (one call for a batch)."""
+    for i in range(w.shape[0]):
+        ok[i] = _dap_kernel(freq_hz[i], power[i], w[i], p, rate_hz, iterations, a[i])
 
 
 @jit

@@ -254,12 +254,19 @@ def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 6
     aper = np.empty(n_frames)
     dp = np.empty((n_frames, tau_max + 2))
     sf = -1.0 if skip_factor is None else float(skip_factor)
-    for i in range(n_frames):
-        f0[i], aper[i] = _yin_kernel(x[i], rate, tau_min, tau_max, w, float(threshold), bool(fallback), sf,
-                                     float(skip_margin), dp[i])
+    _yin_rows_kernel(x, float(rate), tau_min, tau_max, w, float(threshold), bool(fallback), sf, float(skip_margin),
+                     f0, aper, dp)
     if return_cmnd:
         return f0, aper, dp
     return f0, aper
+
+
+@jit
+def _yin_rows_kernel(x, rate, tau_min, tau_max, w, threshold, fallback, skip_factor, skip_margin, f0, aper, dp):  # pragma: no cover
+    """:func:`_yin_kernel` for every row (one call for a batch)."""
+    for i in range(x.shape[0]):
+        f0[i], aper[i] = _yin_kernel(x[i], rate, tau_min, tau_max, w, threshold, fallback, skip_factor, skip_margin,
+                                     dp[i])
 
 
 @jit
