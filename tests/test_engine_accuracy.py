@@ -12,7 +12,7 @@ the goals are asserted directly:
 * with white noise at 20 dB SNR the median F1 and F2 errors are at most
   1.5 x the clean goal (the measured clean errors of men and women are well
   under it, e.g. men's F1 ~0.9 %, so the ratio to them is larger: ~1.9 x for
-  men's F1); children in noise are a known limit (xfail, strict);
+  men's F1); children in noise: at most 1.5 x the measured clean errors;
 * the default method beats plain autocorrelation LPC on the same frames at high F0.
 """
 
@@ -99,9 +99,10 @@ def test_20_db_noise_costs_at_most_half_again(group, f0s):
     assert np.mean((n1 > 0.2) | (n2 > 0.2)) <= 0.02
 
 
-@pytest.mark.xfail(strict=True, reason="known limit: children's /ɔ/ (F1 680, F2 1060 Hz: close, and F2 "
-                                       "weak) in 20 dB white noise: F1 and F2 merge in about 8 % of frames")
 def test_20_db_noise_children():
+    # children's /ɔ/ (F1 680, F2 1060 Hz: close, F2 weak) used to merge F1 and F2
+    # in ~8 % of frames here, until harmonics 8-12 dB above a resolved noise
+    # floor counted as lost in noise (dap.NOISE_DROP_RESOLVED_DB)
     c1, c2 = band("children", (250, 300, 350))
     n1, n2 = band("children", (250, 300, 350), snr_db=20.0)
     assert np.median(n1) <= 1.5 * np.median(c1) and np.median(n2) <= 1.5 * np.median(c2)

@@ -39,8 +39,19 @@ from livevowel.dsp.lpc import _toeplitz_index, _toeplitz_solve
 
 __all__ = ["harmonic_powers", "dap"]
 
-#: Harmonics less than this many dB above the local noise floor count as lost in noise.
+#: Harmonics less than this many dB above the local noise floor count as lost in noise ...
 NOISE_DROP_DB = 8.0
+#: ... or this many where the harmonics are resolved: where the taper's power
+#: response midway between two harmonics (at F0 / 2 from each) is below
+#: ``RESOLVED_LEAK_DB`` re its peak, the valleys hold noise only, and a
+#: harmonic 8-12 dB above them is mostly noise (peak picking takes the largest
+#: of the bins around ``k F0``). Where the harmonics overlap (low F0; the
+#: 25 ms Gaussian taper leaks -11 dB at 50 Hz, i.e. F0 = 100 Hz) the valley
+#: keeps some leakage after the correction below, the measured local SNR
+#: understates the true one, and the lower threshold applies.
+NOISE_DROP_RESOLVED_DB = 12.0
+#: Leakage (dB re the taper's peak) at F0 / 2 below which harmonics count as resolved.
+RESOLVED_LEAK_DB = -30.0
 #: Level assumed for such harmonics, dB below the local noise floor ...
 LOST_BELOW_NOISE_DB = 10.0
 #: ... but not below this, dB re the strongest harmonic of the frame.
@@ -100,8 +111,12 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
         Subtract the mean power of the valleys on either side of each
         harmonic (noise plus leakage; keeping at least 10 % of the peak) and
         weight each harmonic by its local SNR (full weight from 12 dB).
-        Harmonics less than ``NOISE_DROP_DB`` above the floor are taken to be
-        ``FLOOR_DB`` below the strongest harmonic, with weight ``LOST_WEIGHT``.
+        Harmonics less than ``NOISE_DROP_DB`` above the floor
+        (``NOISE_DROP_RESOLVED_DB`` where ``window`` is given and its leakage
+        at F0 / 2 is below ``RESOLVED_LEAK_DB``) count as lost in noise: in
+        the run above the last reliable harmonic they are taken to be
+        ``LOST_BELOW_NOISE_DB`` under the floor (not below ``FLOOR_DB`` re the
+        strongest harmonic), with weight ``LOST_WEIGHT``.
 
     Returns
     -------
@@ -166,6 +181,9 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
             leak = np.interp(half_bins, _bin_index(len(wspec)), wspec)[:, None]
             nxt = np.concatenate([p0[:, 1:], p0[:, -1:]], axis=1)
             valley = np.maximum(valley - leak * (p0 + nxt), 0.0)
+            drop_db = np.where(leak < 10.0 ** (RESOLVED_LEAK_DB / 10.0), NOISE_DROP_RESOLVED_DB, NOISE_DROP_DB)
+        else:
+            drop_db = NOISE_DROP_DB
         below = np.concatenate([valley[:, :1], valley[:, :-1]], axis=1)   # valley under the harmonic
         noise = 0.5 * (valley + below)
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -177,7 +195,7 @@ def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, ma
         # (but not below FLOOR_DB re the strongest harmonic) and give it little
         # weight, rather than fitting the noise as a resonance
         top = np.max(np.where(k[None, :] <= counts[:, None], clean, 0.0), axis=1, keepdims=True)
-        lost = snr_db < NOISE_DROP_DB
+        lost = snr_db < drop_db
         guess = np.maximum(noise * 10.0 ** (-LOST_BELOW_NOISE_DB / 10.0), top * 10.0 ** (FLOOR_DB / 10.0))
         # only the run of lost harmonics above the last reliable one (the band
         # where the voice has sunk into the noise) gets the guess; a lost
@@ -239,6 +257,9 @@ def _harmonic_powers_one(frame: np.ndarray, f0: float, rate_hz: float, max_hz: f
             leak = float(np.interp(0.5 * f0 / df, _bin_index(len(wspec)), wspec))
             nxt = np.concatenate([p0[1:], p0[-1:]])
             valley = np.maximum(valley - leak * (p0 + nxt), 0.0)
+            drop_db = NOISE_DROP_RESOLVED_DB if leak < 10.0 ** (RESOLVED_LEAK_DB / 10.0) else NOISE_DROP_DB
+        else:
+            drop_db = NOISE_DROP_DB
         below = np.concatenate([valley[:1], valley[:-1]])
         noise = 0.5 * (valley + below)
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -246,7 +267,7 @@ def _harmonic_powers_one(frame: np.ndarray, f0: float, rate_hz: float, max_hz: f
         snr_db[np.isnan(snr_db)] = 0.0
         clean = np.maximum(p0 - noise, 0.1 * p0)
         top = max(float(clean.max()), 0.0)
-        lost = snr_db < NOISE_DROP_DB
+        lost = snr_db < drop_db
         floor = top * 10.0 ** (FLOOR_DB / 10.0)
         guess = np.maximum(noise * 10.0 ** (-LOST_BELOW_NOISE_DB / 10.0), floor)
         reliable = np.flatnonzero(~lost)

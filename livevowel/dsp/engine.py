@@ -68,8 +68,7 @@ prediction (Magi et al. 2009; Alku et al. 2013) is available as
 ``method="weighted"`` but did worse than DAP on the project's synthetic
 vowels with the Gaussian-tapered frames used here.
 
-Known limits: a child's /ɔ/ (F1 and F2 close, F2 weak) in 20 dB white
-noise often merges F1 and F2 (an ``xfail`` test records it); F1 midway
+Known limits: F1 midway
 between two widely spaced harmonics (e.g. 470 Hz at F0 = 300 Hz) is still
 pulled up to ~20 % towards the stronger one.
 """
