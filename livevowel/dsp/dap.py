@@ -37,7 +37,7 @@ import numpy as np
 
 from livevowel.dsp.lpc import _toeplitz_index, _toeplitz_solve
 
-__all__ = ["harmonic_powers", "dap"]
+__all__ = ["harmonic_powers", "dap", "dap_orders"]
 
 #: Harmonics less than this many dB above the local noise floor count as lost in noise ...
 NOISE_DROP_DB = 8.0
@@ -58,6 +58,19 @@ LOST_BELOW_NOISE_DB = 10.0
 FLOOR_DB = -50.0
 #: Their weight in the fit (and the least weight any harmonic gets).
 LOST_WEIGHT = 0.3
+
+#: The fit of a frame uses an order no higher than keeps at least this many
+#: harmonics per model parameter (p coefficients plus the gain). With about
+#: as many harmonics as parameters the all-pole model can pass through every
+#: harmonic power and put poles anywhere between them (El-Jaroudi & Makhoul
+#: 1991: the discrete fit is exact once M <= p + 1); at F0 350-400 Hz a
+#: woman's 5500 Hz band holds only 13-15 harmonics for the 13 parameters of
+#: order 12, and F1 locked onto a harmonic (e.g. /ɔ/ F1 590 Hz read as 696 Hz
+#: = 2 F0 at F0 350 Hz).
+HARMONICS_PER_PARAMETER = 1.5
+#: ... but never below this order (F1-F3 and one more resonance for the
+#: source and the formants above).
+MIN_ORDER = 8
 
 
 _WINDOW_POWER: dict[tuple[int, bytes], np.ndarray] = {}
@@ -282,6 +295,17 @@ def _harmonic_powers_one(frame: np.ndarray, f0: float, rate_hz: float, max_hz: f
     return freq[None, :], power[None, :], np.asarray(weight, dtype=np.float64)[None, :]
 
 
+def dap_orders(weight: np.ndarray, *, order: int) -> np.ndarray:
+    """Order of each frame's fit: ``order``, lowered (in steps of 2, not below
+    ``MIN_ORDER``) until the frame has at least ``HARMONICS_PER_PARAMETER``
+    harmonics per parameter (``M >= HARMONICS_PER_PARAMETER * (p + 1)``).
+    ``weight`` is ``(n, M)`` from :func:`harmonic_powers`; returns ``(n,)`` ints."""
+    m = (np.asarray(weight) > 0).sum(axis=1)
+    fit = 2 * np.floor((m / HARMONICS_PER_PARAMETER - 1.0) / 2.0)
+    low = min(int(order), MIN_ORDER)
+    return np.clip(fit, low, int(order)).astype(np.int64)
+
+
 def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: int, rate_hz: float,
         iterations: int = 12) -> tuple[np.ndarray, np.ndarray]:
     """Discrete all-pole model of harmonic powers (El-Jaroudi & Makhoul 1991).
@@ -291,7 +315,10 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
     freq_hz, power, weight : ndarray, shape (n, M)
         From :func:`harmonic_powers`.
     order : int
-        Model order p.
+        Highest model order p. Frames with few harmonics are fitted with a
+        lower even order (see :func:`dap_orders`); their coefficients are
+        padded with zeros to ``p + 1`` (the same polynomial, with extra roots
+        at z = 0).
     rate_hz : float
         Sampling rate, Hz.
     iterations : int
@@ -305,6 +332,26 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
     ok : ndarray of bool, shape (n,)
         True where the iteration ran.
     """
+    w = np.asarray(weight, dtype=np.float64)
+    p = int(order)
+    orders = dap_orders(w, order=p)
+    if np.all(orders == p):
+        return _dap_fixed(freq_hz, power, w, order=p, rate_hz=rate_hz, iterations=iterations)
+    f = np.asarray(freq_hz, dtype=np.float64)
+    pw = np.asarray(power, dtype=np.float64)
+    a = np.zeros((len(w), p + 1))
+    ok = np.zeros(len(w), dtype=bool)
+    for q in np.unique(orders):
+        rows = np.flatnonzero(orders == q)
+        a_q, ok_q = _dap_fixed(f[rows], pw[rows], w[rows], order=int(q), rate_hz=rate_hz, iterations=iterations)
+        a[rows, : q + 1] = a_q
+        ok[rows] = ok_q
+    return a, ok
+
+
+def _dap_fixed(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: int, rate_hz: float,
+               iterations: int) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`dap` with the same order for every frame."""
     w = np.asarray(weight, dtype=np.float64)
     n, m = w.shape
     p = int(order)
