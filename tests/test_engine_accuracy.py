@@ -9,10 +9,14 @@ the goals are asserted directly:
 * median absolute F1 and F2 error (pooled over the voiced frames of the ten
   vowels) <= 3 % for F0 up to 250 Hz and <= 5 % for F0 300-350 Hz;
 * frames more than 20 % off (or not measured) <= 2 % of voiced frames;
+* median F1 and F2 error <= 5 % over the whole 300-400 Hz band; frames more
+  than 20 % off there: children <= 2 %, women a known limit (F1 below F0,
+  xfail, strict);
 * with white noise at 20 dB SNR the median F1 and F2 errors are at most
-  1.5 x the clean goal (the measured clean errors of men and women are well
-  under it, e.g. men's F1 ~0.9 %, so the ratio to them is larger: ~1.9 x for
-  men's F1); children in noise: at most 1.5 x the measured clean errors;
+  1.5 x the measured clean errors (or 1 % of the formant, whichever is
+  larger; see NOISE_FLOOR_FRACTION): women and children meet it, men's F1 is
+  a known limit (~1.9 x; xfail, strict) -- the looser check against 1.5 x the
+  clean goal is kept for men and women;
 * the default method beats plain autocorrelation LPC on the same frames at high F0.
 """
 
@@ -84,6 +88,47 @@ def test_clean_error_300_to_350_hz(group, f0s):
     e1, e2 = band(group, f0s)
     assert np.median(e1) <= 0.05 and np.median(e2) <= 0.05, (np.median(e1), np.median(e2))
     assert np.mean((e1 > 0.2) | (e2 > 0.2)) <= 0.02
+
+
+@pytest.mark.parametrize("group", ["women", "children"])
+def test_clean_median_error_300_to_400_hz(group):
+    e1, e2 = band(group, (300, 350, 400))
+    assert np.median(e1) <= 0.05 and np.median(e2) <= 0.05, (np.median(e1), np.median(e2))
+
+
+@pytest.mark.parametrize("group", [
+    pytest.param("women", marks=pytest.mark.xfail(
+        strict=True, reason="known limit: F1 below F0 (women's /i/, F1 310 Hz, at F0 350 and 400 Hz) reads "
+                            "25-50 % high in every frame, i.e. ~6.7 % of the band's frames; the other nine "
+                            "vowels have none")),
+    "children",
+])
+def test_clean_outliers_300_to_400_hz(group):
+    e1, e2 = band(group, (300, 350, 400))
+    assert np.mean((e1 > 0.2) | (e2 > 0.2)) <= 0.02
+
+
+#: Absolute floor of the noise-cost limit, as a fraction of the formant: a
+#: noisy median error under 1 % passes whatever the ratio. The clean medians
+#: of F2 are ~0.2-0.4 % (2-5 Hz), where 1.5 x is a few hertz and the ratio
+#: measures rounding more than noise; 1 % is a third of the 3 % goal and
+#: below the difference limen for formant frequency (~3-5 %, Flanagan 1955,
+#: from memory), so it cannot hide an error a listener or the display shows.
+NOISE_FLOOR_FRACTION = 0.01
+
+
+@pytest.mark.parametrize("group,f0s", [
+    pytest.param("men", (100, 130, 160), marks=pytest.mark.xfail(
+        strict=True, reason="known limit: men's F1 in 20 dB noise ~1.7 % against ~0.9 % clean (1.9 x); "
+                            "noise shifts the DAP fit of the weak high harmonics (see the engine notes)")),
+    ("women", (180, 220, 250)),
+])
+def test_20_db_noise_costs_at_most_half_again_of_measured_clean(group, f0s):
+    c1, c2 = band(group, f0s)
+    n1, n2 = band(group, f0s, snr_db=20.0)
+    for noisy, clean in ((np.median(n1), np.median(c1)), (np.median(n2), np.median(c2))):
+        assert noisy <= max(1.5 * clean, NOISE_FLOOR_FRACTION), (noisy, clean)
+    assert np.mean((n1 > 0.2) | (n2 > 0.2)) <= 0.02
 
 
 @pytest.mark.parametrize("group,f0s", [("men", (100, 130, 160)), ("women", (180, 220, 250))])
