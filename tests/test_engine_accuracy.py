@@ -14,8 +14,7 @@ the goals are asserted directly:
   xfail, strict);
 * with white noise at 20 dB SNR the median F1 and F2 errors are at most
   1.5 x the measured clean errors (or 1 % of the formant, whichever is
-  larger; see NOISE_FLOOR_FRACTION): women and children meet it, men's F1 is
-  a known limit (~1.9 x; xfail, strict) -- the looser check against 1.5 x the
+  larger; see NOISE_FLOOR_FRACTION) -- the looser check against 1.5 x the
   clean goal is kept for men and women;
 * the default method beats plain autocorrelation LPC on the same frames at high F0.
 """
@@ -117,12 +116,7 @@ def test_clean_outliers_300_to_400_hz(group):
 NOISE_FLOOR_FRACTION = 0.01
 
 
-@pytest.mark.parametrize("group,f0s", [
-    pytest.param("men", (100, 130, 160), marks=pytest.mark.xfail(
-        strict=True, reason="known limit: men's F1 in 20 dB noise ~1.7 % against ~0.9 % clean (1.9 x); "
-                            "noise shifts the DAP fit of the weak high harmonics (see the engine notes)")),
-    ("women", (180, 220, 250)),
-])
+@pytest.mark.parametrize("group,f0s", [("men", (100, 130, 160)), ("women", (180, 220, 250))])
 def test_20_db_noise_costs_at_most_half_again_of_measured_clean(group, f0s):
     c1, c2 = band(group, f0s)
     n1, n2 = band(group, f0s, snr_db=20.0)

@@ -295,19 +295,23 @@ def _harmonic_powers_one(frame: np.ndarray, f0: float, rate_hz: float, max_hz: f
     return freq[None, :], power[None, :], np.asarray(weight, dtype=np.float64)[None, :]
 
 
-def dap_orders(weight: np.ndarray, *, order: int) -> np.ndarray:
+def dap_orders(weight: np.ndarray, *, order: int, harmonics_per_parameter: float | None = None) -> np.ndarray:
     """Order of each frame's fit: ``order``, lowered (in steps of 2, not below
-    ``MIN_ORDER``) until the frame has at least ``HARMONICS_PER_PARAMETER``
-    harmonics per parameter (``M >= HARMONICS_PER_PARAMETER * (p + 1)``).
+    ``MIN_ORDER``) until the frame has at least ``harmonics_per_parameter``
+    (default ``HARMONICS_PER_PARAMETER``) harmonics per parameter
+    (``M >= harmonics_per_parameter * (p + 1)``).
     ``weight`` is ``(n, M)`` from :func:`harmonic_powers`; returns ``(n,)`` ints."""
+    h = HARMONICS_PER_PARAMETER if harmonics_per_parameter is None else float(harmonics_per_parameter)
+    if not h > 0:
+        raise ValueError(f"harmonics_per_parameter must be > 0, got {harmonics_per_parameter}")
     m = (np.asarray(weight) > 0).sum(axis=1)
-    fit = 2 * np.floor((m / HARMONICS_PER_PARAMETER - 1.0) / 2.0)
+    fit = 2 * np.floor((m / h - 1.0) / 2.0)
     low = min(int(order), MIN_ORDER)
     return np.clip(fit, low, int(order)).astype(np.int64)
 
 
 def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: int, rate_hz: float,
-        iterations: int = 12) -> tuple[np.ndarray, np.ndarray]:
+        iterations: int = 12, harmonics_per_parameter: float | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Discrete all-pole model of harmonic powers (El-Jaroudi & Makhoul 1991).
 
     Parameters
@@ -319,6 +323,8 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
         lower even order (see :func:`dap_orders`); their coefficients are
         padded with zeros to ``p + 1`` (the same polynomial, with extra roots
         at z = 0).
+    harmonics_per_parameter : float, optional
+        See :func:`dap_orders` (default ``HARMONICS_PER_PARAMETER``).
     rate_hz : float
         Sampling rate, Hz.
     iterations : int
@@ -334,7 +340,7 @@ def dap(freq_hz: np.ndarray, power: np.ndarray, weight: np.ndarray, *, order: in
     """
     w = np.asarray(weight, dtype=np.float64)
     p = int(order)
-    orders = dap_orders(w, order=p)
+    orders = dap_orders(w, order=p, harmonics_per_parameter=harmonics_per_parameter)
     if np.all(orders == p):
         return _dap_fixed(freq_hz, power, w, order=p, rate_hz=rate_hz, iterations=iterations)
     f = np.asarray(freq_hz, dtype=np.float64)

@@ -29,7 +29,8 @@ Stages (both paths)
    and aperiodicity (YIN, de Cheveigné & Kawahara 2002, on a window of two
    periods of ``f0_min_hz`` centred on the same point), voicing with
    hysteresis (:func:`voicing_hysteresis`), LPC of order ``2 x formants + 2``
-   (five formants below the voice's nominal ceiling; fewer when capped) by
+   (five formants below the voice's nominal ceiling; fewer when capped; + 4
+   instead of + 2 for men, see ``SOURCE_POLE_PAIRS``) by
    ``method``, formant candidates from the batched polynomial roots.
 5. *Tracking* (:mod:`livevowel.dsp.tracking`): candidates -> F1/F2/F3 with
    costs for bandwidth, distance from the voice's reference formants,
@@ -72,10 +73,7 @@ Known limits: F1 midway
 between two widely spaced harmonics (e.g. 470 Hz at F0 = 300 Hz) is still
 pulled up to ~20 % towards the stronger one. F1 below F0 (women's /i/,
 310 Hz, at F0 350-400 Hz) is read between the first two harmonics, 25-50 %
-high. In 20 dB white noise men's F1 error about doubles (median ~0.9 % ->
-~1.7 % on the synthetic Peterson & Barney vowels): the noise changes the
-fit of the weak high harmonics (whose true level is below the noise and
-unknown), which moves the low poles too; ``xfail`` tests record both.
+high (an ``xfail`` test records it).
 """
 
 from __future__ import annotations
@@ -129,8 +127,27 @@ REFERENCE_HZ: dict[str, tuple[float, float, float]] = {
     "child": (617.0, 1842.0, 2838.0),
 }
 
-#: Number of formants assumed below the nominal ceiling (LPC order = 2 n + 2).
+#: Number of formants assumed below the nominal ceiling (LPC order = 2 n + 2 x
+#: ``SOURCE_POLE_PAIRS``).
 FORMANTS_BELOW_CEILING = 5
+
+#: Pole pairs beyond the formants, per voice (the glottal source's spectral
+#: shape, and in noise the floor the weak high harmonics sink into). Men get
+#: two: measured on the Peterson & Barney (1952) men's vowels (from memory)
+#: from the project synthesiser at F0 100-160 Hz (three seed sets), order
+#: 12 -> 14 moves the median F1 error from 0.9 % to 1.35-1.55 % clean but
+#: from 1.65-1.75 % to 1.2-1.3 % in 20 dB white noise (F2: 0.2 -> 0.5 %
+#: clean, 0.55-0.6 -> 0.5-0.55 % noisy). With a 5000 Hz band there are 30-50 harmonics at those F0s, enough
+#: for the 15 parameters; at higher F0 ``DAP_HARMONICS_PER_PARAMETER`` lowers
+#: the order again.
+SOURCE_POLE_PAIRS: dict[str, int] = {"adult_male": 2, "adult_female": 1, "child": 1}
+
+#: Harmonics per model parameter the DAP fit keeps (``harmonics_per_parameter``
+#: of :func:`livevowel.dsp.dap.dap`): the order of a frame is lowered until it
+#: has at least this many. Men 2.0: with order 14 and the default 1.5, men's
+#: vowels at F0 170-240 Hz (20-29 harmonics) measured 4.3 % median F1 error;
+#: with 2.0 (orders 12, 10, 8 there) 3.0 % (order 12 throughout: 3.4 %).
+DAP_HARMONICS_PER_PARAMETER: dict[str, float] = {"adult_male": 2.0, "adult_female": 1.5, "child": 1.5}
 
 #: F0 boundaries (Hz) used by ``voice="auto"`` (between group means of
 #: Peterson & Barney 1952: men ~130, women ~220, children ~260 Hz, from memory).
@@ -418,6 +435,7 @@ class _Plan:
     taper: np.ndarray = field(repr=False)
     ref_hz: np.ndarray = field(repr=False)
     min_hz: float = 90.0
+    harmonics_per_parameter: float = 1.5   # DAP order limit, see DAP_HARMONICS_PER_PARAMETER
 
     @property
     def max_hz(self) -> np.ndarray:
@@ -450,7 +468,7 @@ def _make_plan(s: AnalysisSettings, voice: str, input_rate: int) -> tuple[_Plan,
     if s.ceiling_hz is not None:
         ref = ref * (ceiling / nominal)
     n_form = max(3, int(round(FORMANTS_BELOW_CEILING * ceiling / nominal)))
-    order = 2 * n_form + 2
+    order = 2 * n_form + 2 * SOURCE_POLE_PAIRS[voice]
     hop = max(1, int(round(s.hop_s * rate)))
     n = max(order + 2, int(round(s.window_s * rate)))
     f0_max = min(s.f0_max_hz, rate / 4.0)
@@ -461,7 +479,8 @@ def _make_plan(s: AnalysisSettings, voice: str, input_rate: int) -> tuple[_Plan,
     n_pitch = n + 2 * ext
     plan = _Plan(voice=voice, ceiling_hz=ceiling, rate_hz=rate, order=order, hop=hop, n=n, n_pitch=n_pitch,
                  ext=ext, coef=framing.pre_emphasis_coefficient(s.pre_emphasis_hz, rate),
-                 taper=framing.taper(s.taper, n), ref_hz=ref)
+                 taper=framing.taper(s.taper, n), ref_hz=ref,
+                 harmonics_per_parameter=DAP_HARMONICS_PER_PARAMETER[voice])
     return plan, warns
 
 
@@ -568,7 +587,8 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
             hf, hp, hw = harmonic_powers(cond[g], f0[g], rate_hz=plan.rate_hz,
                                          max_hz=plan.rate_hz / 2.0 - plan.min_hz, nfft=1024,
                                          window=plan.taper)
-            a_dap, _ = dap(hf, hp, hw, order=plan.order, rate_hz=plan.rate_hz, iterations=s.dap_iterations)
+            a_dap, _ = dap(hf, hp, hw, order=plan.order, rate_hz=plan.rate_hz, iterations=s.dap_iterations,
+                           harmonics_per_parameter=plan.harmonics_per_parameter)
             coeffs[g] = a_dap
     else:
         coeffs = lpc(cond, order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)
