@@ -36,8 +36,8 @@ def _harmonics(f0: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 def test_orders_keep_enough_harmonics_per_parameter():
     w = np.ones((4, 40))
-    w[1, 14:] = 0.0      # 14 harmonics: 14 / 1.5 = 9.3 parameters -> order 8
-    w[2, 20:] = 0.0      # 20 harmonics: 13.3 parameters -> order 12
+    w[1, 14:] = 0.0      # 14 harmonics: 14 / 1.4 = 10 parameters -> order 8 (even)
+    w[2, 20:] = 0.0      # 20 harmonics: 14.3 parameters -> order 12
     w[3, 5:] = 0.0       # 5 harmonics: floor at MIN_ORDER
     got = dap_orders(w, order=12)
     np.testing.assert_array_equal(got, [12, 8, 12, MIN_ORDER])

@@ -137,17 +137,18 @@ FORMANTS_BELOW_CEILING = 5
 #: from the project synthesiser at F0 100-160 Hz (three seed sets), order
 #: 12 -> 14 moves the median F1 error from 0.9 % to 1.35-1.55 % clean but
 #: from 1.65-1.75 % to 1.2-1.3 % in 20 dB white noise (F2: 0.2 -> 0.5 %
-#: clean, 0.55-0.6 -> 0.5-0.55 % noisy). With a 5000 Hz band there are 30-50 harmonics at those F0s, enough
-#: for the 15 parameters; at higher F0 ``DAP_HARMONICS_PER_PARAMETER`` lowers
-#: the order again.
+#: clean, 0.55-0.6 -> 0.5-0.55 % noisy). With a 5000 Hz band there are
+#: 30-50 harmonics at those F0s, enough for the 15 parameters; at higher F0
+#: ``DAP_HARMONICS_PER_PARAMETER`` lowers the order again.
 SOURCE_POLE_PAIRS: dict[str, int] = {"adult_male": 2, "adult_female": 1, "child": 1}
 
 #: Harmonics per model parameter the DAP fit keeps (``harmonics_per_parameter``
 #: of :func:`livevowel.dsp.dap.dap`): the order of a frame is lowered until it
-#: has at least this many. Men 2.0: with order 14 and the default 1.5, men's
+#: has at least this many. Women and children: 1.4, the default of
+#: ``dap.HARMONICS_PER_PARAMETER``. Men 2.0: with order 14 and 1.5, men's
 #: vowels at F0 170-240 Hz (20-29 harmonics) measured 4.3 % median F1 error;
 #: with 2.0 (orders 12, 10, 8 there) 3.0 % (order 12 throughout: 3.4 %).
-DAP_HARMONICS_PER_PARAMETER: dict[str, float] = {"adult_male": 2.0, "adult_female": 1.5, "child": 1.5}
+DAP_HARMONICS_PER_PARAMETER: dict[str, float] = {"adult_male": 2.0, "adult_female": 1.4, "child": 1.4}
 
 #: F0 boundaries (Hz) used by ``voice="auto"`` (between group means of
 #: Peterson & Barney 1952: men ~130, women ~220, children ~260 Hz, from memory).
