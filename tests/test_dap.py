@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from livevowel.dsp.dap import HARMONICS_PER_PARAMETER, MIN_ORDER, _dap_fixed, dap, dap_orders
+from livevowel.dsp.dap import HARMONICS_PER_PARAMETER, MAX_ORDER_DROP, dap, dap_orders
 from livevowel.dsp.lpc import formant_candidates
 
 RATE = 11000.0
@@ -38,11 +38,13 @@ def test_orders_keep_enough_harmonics_per_parameter():
     w = np.ones((4, 40))
     w[1, 14:] = 0.0      # 14 harmonics: 14 / 1.4 = 10 parameters -> order 8 (even)
     w[2, 20:] = 0.0      # 20 harmonics: 14.3 parameters -> order 12
-    w[3, 5:] = 0.0       # 5 harmonics: floor at MIN_ORDER
+    w[3, 5:] = 0.0       # 5 harmonics: at most MAX_ORDER_DROP lower
     got = dap_orders(w, order=12)
-    np.testing.assert_array_equal(got, [12, 8, 12, MIN_ORDER])
+    np.testing.assert_array_equal(got, [12, 8, 12, 12 - MAX_ORDER_DROP])
     m = w.sum(axis=1)
-    assert np.all((m >= HARMONICS_PER_PARAMETER * (got + 1)) | (got == MIN_ORDER))
+    assert np.all((m >= HARMONICS_PER_PARAMETER * (got + 1)) | (got == 12 - MAX_ORDER_DROP))
+    # men's order 14 stops at 10
+    assert dap_orders(w[3:], order=14)[0] == 14 - MAX_ORDER_DROP
 
 
 @pytest.mark.parametrize("f0", [160.0, 380.0])

@@ -147,7 +147,8 @@ SOURCE_POLE_PAIRS: dict[str, int] = {"adult_male": 2, "adult_female": 1, "child"
 #: has at least this many. Women and children: 1.4, the default of
 #: ``dap.HARMONICS_PER_PARAMETER``. Men 2.0: with order 14 and 1.5, men's
 #: vowels at F0 170-240 Hz (20-29 harmonics) measured 4.3 % median F1 error;
-#: with 2.0 (orders 12, 10, 8 there) 3.0 % (order 12 throughout: 3.4 %).
+#: with 2.0 (orders 12, 10, 10 there; see dap.MAX_ORDER_DROP) 2.5 % (order
+#: 12 throughout: 3.4 %).
 DAP_HARMONICS_PER_PARAMETER: dict[str, float] = {"adult_male": 2.0, "adult_female": 1.4, "child": 1.4}
 
 #: F0 boundaries (Hz) used by ``voice="auto"`` (between group means of
