@@ -9,10 +9,13 @@ the goals are asserted directly:
 * median absolute F1 and F2 error (pooled over the voiced frames of the ten
   vowels) <= 3 % for F0 up to 250 Hz and <= 5 % for F0 300-350 Hz;
 * frames more than 20 % off (or not measured) <= 2 % of voiced frames;
+* median F1 and F2 error <= 5 % over the whole 300-400 Hz band; frames more
+  than 20 % off there: children <= 2 %, women a known limit (F1 below F0,
+  xfail, strict);
 * with white noise at 20 dB SNR the median F1 and F2 errors are at most
-  1.5 x the clean goal (the measured clean errors of men and women are well
-  under it, e.g. men's F1 ~0.9 %, so the ratio to them is larger: ~1.9 x for
-  men's F1); children in noise are a known limit (xfail, strict);
+  1.5 x the measured clean errors (or 1 % of the formant, whichever is
+  larger; see NOISE_FLOOR_FRACTION) -- the looser check against 1.5 x the
+  clean goal is kept for men and women;
 * the default method beats plain autocorrelation LPC on the same frames at high F0.
 """
 
@@ -68,7 +71,7 @@ def band(group: str, f0s, **kw) -> tuple[np.ndarray, np.ndarray]:
     return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts])
 
 
-LOW = [("men", (100, 130, 160)), ("women", (180, 220, 250)), ("children", (250,))]
+LOW = [("men", (100, 130, 160)), ("men", (170, 200, 240)), ("women", (180, 220, 250)), ("children", (250,))]
 HIGH = [("women", (300,)), ("children", (300, 350))]
 
 
@@ -86,6 +89,42 @@ def test_clean_error_300_to_350_hz(group, f0s):
     assert np.mean((e1 > 0.2) | (e2 > 0.2)) <= 0.02
 
 
+@pytest.mark.parametrize("group", ["women", "children"])
+def test_clean_median_error_300_to_400_hz(group):
+    e1, e2 = band(group, (300, 350, 400))
+    assert np.median(e1) <= 0.05 and np.median(e2) <= 0.05, (np.median(e1), np.median(e2))
+
+
+@pytest.mark.parametrize("group", [
+    pytest.param("women", marks=pytest.mark.xfail(
+        strict=True, reason="known limit: F1 below F0 (women's /i/, F1 310 Hz, at F0 350 and 400 Hz) reads "
+                            "25-50 % high in every frame, i.e. ~6.7 % of the band's frames; the other nine "
+                            "vowels have none")),
+    "children",
+])
+def test_clean_outliers_300_to_400_hz(group):
+    e1, e2 = band(group, (300, 350, 400))
+    assert np.mean((e1 > 0.2) | (e2 > 0.2)) <= 0.02
+
+
+#: Absolute floor of the noise-cost limit, as a fraction of the formant: a
+#: noisy median error under 1 % passes whatever the ratio. The clean medians
+#: of F2 are ~0.2-0.4 % (2-5 Hz), where 1.5 x is a few hertz and the ratio
+#: measures rounding more than noise; 1 % is a third of the 3 % goal and
+#: below the difference limen for formant frequency (~3-5 %, Flanagan 1955,
+#: from memory), so it cannot hide an error a listener or the display shows.
+NOISE_FLOOR_FRACTION = 0.01
+
+
+@pytest.mark.parametrize("group,f0s", [("men", (100, 130, 160)), ("women", (180, 220, 250))])
+def test_20_db_noise_costs_at_most_half_again_of_measured_clean(group, f0s):
+    c1, c2 = band(group, f0s)
+    n1, n2 = band(group, f0s, snr_db=20.0)
+    for noisy, clean in ((np.median(n1), np.median(c1)), (np.median(n2), np.median(c2))):
+        assert noisy <= max(1.5 * clean, NOISE_FLOOR_FRACTION), (noisy, clean)
+    assert np.mean((n1 > 0.2) | (n2 > 0.2)) <= 0.02
+
+
 @pytest.mark.parametrize("group,f0s", [("men", (100, 130, 160)), ("women", (180, 220, 250))])
 def test_20_db_noise_costs_at_most_half_again(group, f0s):
     c1, c2 = band(group, f0s)
@@ -99,9 +138,10 @@ def test_20_db_noise_costs_at_most_half_again(group, f0s):
     assert np.mean((n1 > 0.2) | (n2 > 0.2)) <= 0.02
 
 
-@pytest.mark.xfail(strict=True, reason="known limit: children's /ɔ/ (F1 680, F2 1060 Hz: close, and F2 "
-                                       "weak) in 20 dB white noise: F1 and F2 merge in about 8 % of frames")
 def test_20_db_noise_children():
+    # children's /ɔ/ (F1 680, F2 1060 Hz: close, F2 weak) used to merge F1 and F2
+    # in ~8 % of frames here, until harmonics 8-12 dB above a resolved noise
+    # floor counted as lost in noise (dap.NOISE_DROP_RESOLVED_DB)
     c1, c2 = band("children", (250, 300, 350))
     n1, n2 = band("children", (250, 300, 350), snr_db=20.0)
     assert np.median(n1) <= 1.5 * np.median(c1) and np.median(n2) <= 1.5 * np.median(c2)
@@ -112,7 +152,7 @@ def test_20_db_noise_children():
 def test_harmonic_fit_beats_plain_lpc_at_high_f0(group, f0s):
     d1, d2 = band(group, f0s)
     a1, a2 = band(group, f0s, method="autocorrelation")
-    # measured gain is reported by `livevowel bench --only engine-accuracy`
+    # measured gain is reported by `livevowel bench --only dsp` (accuracy table)
     assert np.median(d1) < 0.8 * np.median(a1)
     assert np.mean((d1 > 0.2) | (d2 > 0.2)) <= np.mean((a1 > 0.2) | (a2 > 0.2))
 

@@ -26,7 +26,9 @@ Figures (all measured in the same run, on this machine):
   25 ms, pre-emphasis 0.97, formants = first roots above 90 Hz narrower than
   400 Hz; common practice) are compared with the synthesiser's formants:
   median absolute error in per cent, and the share of frames more than 20 %
-  off (a frame with no estimate counts as off).
+  off (a frame with no estimate counts as off). A second table repeats the
+  engine's figures with white noise at 20 dB SNR added to the same signals,
+  with the ratio of each median to the clean one (goal: at most 1.5).
 """
 
 from __future__ import annotations
@@ -65,6 +67,10 @@ GROUP_VOICES = {"men": ("man", "adult_male"), "women": ("woman", "adult_female")
 
 #: F0 band label -> F0 values (Hz) synthesised in that band.
 F0_BANDS = {"100-250 Hz": (110.0, 170.0, 240.0), "300-400 Hz": (300.0, 350.0, 400.0)}
+
+#: SNR (dB) of the noisy accuracy table, and the goal for its errors (x the clean ones).
+NOISE_SNR_DB = 20.0
+NOISE_GOAL_RATIO = 1.5
 
 GOAL_P99_MS = 1.0
 GOAL_RTF = 100.0
@@ -234,10 +240,15 @@ def offline_speed(x: np.ndarray, *, repeat: int) -> dict[str, float]:
             "analysis_rate_hz": float(res.analysis_rate_hz), "order": int(res.order), "method": res.method}
 
 
-def accuracy(*, quick: bool) -> list[dict]:
-    """Rows of the accuracy table: group x F0 band, engine and plain LPC."""
+def accuracy(*, quick: bool, snr_db: float | None = None) -> list[dict]:
+    """Rows of the accuracy table: group x F0 band, engine and plain LPC.
+
+    ``snr_db``: white noise at this SNR over the vowel
+    (:func:`livevowel.dsp.synth.add_noise`, same seed as the vowel) on the
+    same signals; None = clean.
+    """
     from livevowel.dsp.engine import AnalysisSettings, analyze
-    from livevowel.dsp.synth import synthesize_vowel
+    from livevowel.dsp.synth import add_noise, synthesize_vowel
 
     dur = 0.35 if quick else 0.6
     vowels = ("i", "ɑ", "u") if quick else tuple(PB1952["men"])
@@ -256,12 +267,15 @@ def accuracy(*, quick: bool) -> list[dict]:
                     x = synthesize_vowel(formants_hz=fm, f0_hz=f0, duration_s=dur, rate_hz=RATE_HZ,
                                          voice=synth_voice, jitter_pct=0.5, shimmer_db=0.2, seed=seed,
                                          peak_dbfs=-12.0)
+                    if snr_db is not None:
+                        x = add_noise(x, snr_db=snr_db, seed=seed)
                     res = analyze(x, RATE_HZ, settings=settings)
                     fr = res.frames
                     steady = (fr.time_s >= 0.1) & (fr.time_s <= dur - 0.1)
                     times = fr.time_s[steady]
                     eng = np.column_stack([fr.f1_hz[steady], fr.f2_hz[steady]])
-                    plain = _plain_on_frames(x, times, rate_hz=res.analysis_rate_hz, order=res.order)
+                    plain = (_plain_on_frames(x, times, rate_hz=res.analysis_rate_hz, order=res.order)
+                             if snr_db is None else np.full_like(eng, np.nan))   # noisy table: engine only
                     for name, est in (("engine", eng), ("plain", plain)):
                         for j in range(2):
                             err[name][j].append(100.0 * np.abs(est[:, j] - fm[j]) / fm[j])
@@ -410,6 +424,20 @@ def run(*, quick: bool, out: Callable[[str], None]) -> dict:
     better = sum(r["engine_f1_median_pct"] <= r["plain_f1_median_pct"] for r in rows)
     out(f"  engine F1 median error at or below plain LPC's in {better} of {len(rows)} rows")
     figures["accuracy"] = rows
+
+    out("")
+    out(f"Accuracy in white noise at {NOISE_SNR_DB:g} dB SNR: the same signals plus noise; engine only. "
+        f"Goal: median error at most {NOISE_GOAL_RATIO:g} x the clean one")
+    out(f"  {'group':<9}{'F0 band':<12}{'frames':>7} | {'F1 med%':>8}{'x clean':>8}{'F1 >20%':>8}"
+        f"{'F2 med%':>8}{'x clean':>8}{'F2 >20%':>8}")
+    noisy = accuracy(quick=quick, snr_db=NOISE_SNR_DB)
+    for r, c in zip(noisy, rows):
+        for j in ("f1", "f2"):
+            r[f"engine_{j}_ratio_to_clean"] = r[f"engine_{j}_median_pct"] / max(c[f"engine_{j}_median_pct"], 1e-9)
+        out(f"  {r['group']:<9}{r['band']:<12}{r['frames']:>7} | "
+            f"{r['engine_f1_median_pct']:>8.1f}{r['engine_f1_ratio_to_clean']:>8.2f}{r['engine_f1_over20_pct']:>8.1f}"
+            f"{r['engine_f2_median_pct']:>8.1f}{r['engine_f2_ratio_to_clean']:>8.2f}{r['engine_f2_over20_pct']:>8.1f}")
+    figures["accuracy_noise"] = {"snr_db": NOISE_SNR_DB, "rows": noisy}
     if quick:
         out("  (--quick: fewer vowels, one F0 per band, shorter signals; a smoke run, not a measurement)")
     _voice_auto_rows(quick=quick, out=out, figures=figures)

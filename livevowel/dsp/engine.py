@@ -29,7 +29,8 @@ Stages (both paths)
    and aperiodicity (YIN, de Cheveigné & Kawahara 2002, on a window of two
    periods of ``f0_min_hz`` centred on the same point), voicing with
    hysteresis (:func:`voicing_hysteresis`), LPC of order ``2 x formants + 2``
-   (five formants below the voice's nominal ceiling; fewer when capped) by
+   (five formants below the voice's nominal ceiling; fewer when capped; + 4
+   instead of + 2 for men, see ``SOURCE_POLE_PAIRS``) by
    ``method``, formant candidates from the batched polynomial roots.
 5. *Tracking* (:mod:`livevowel.dsp.tracking`): candidates -> F1/F2/F3 with
    costs for bandwidth, distance from the voice's reference formants,
@@ -62,7 +63,7 @@ Harmonic attraction (high F0): plain autocorrelation LPC is pulled towards
 harmonics when F0 is high (the spectrum is sampled only every F0 Hz). The
 default ``method="dap"`` fits the all-pole model to the harmonic powers
 only (discrete all-pole modelling, El-Jaroudi & Makhoul 1991;
-:mod:`livevowel.dsp.dap`), using the frame's F0 (YIN with an octave check);
+:mod:`livevowel.dsp.dap`), using the frame's F0 (YIN with its dip-skipping rule);
 harmonics near the local noise floor are down-weighted. Frames without an
 F0 use autocorrelation LPC. The tracker also penalises candidates that are
 narrow and sit on a harmonic ``k x F0`` (``w_harm``) and skipping strong
@@ -72,10 +73,11 @@ prediction (Magi et al. 2009; Alku et al. 2013) is available as
 ``method="weighted"`` but did worse than DAP on the project's synthetic
 vowels with the Gaussian-tapered frames used here.
 
-Known limits: a child's /ɔ/ (F1 and F2 close, F2 weak) in 20 dB white
-noise often merges F1 and F2 (an ``xfail`` test records it); F1 midway
+Known limits: F1 midway
 between two widely spaced harmonics (e.g. 470 Hz at F0 = 300 Hz) is still
-pulled up to ~20 % towards the stronger one.
+pulled up to ~20 % towards the stronger one. F1 below F0 (women's /i/,
+310 Hz, at F0 350-400 Hz) is read between the first two harmonics, 25-50 %
+high (an ``xfail`` test records it).
 """
 
 from __future__ import annotations
@@ -134,8 +136,29 @@ REFERENCE_HZ: dict[str, tuple[float, float, float]] = {
     "child": (617.0, 1842.0, 2838.0),
 }
 
-#: Number of formants assumed below the nominal ceiling (LPC order = 2 n + 2).
+#: Number of formants assumed below the nominal ceiling (LPC order = 2 n + 2 x
+#: ``SOURCE_POLE_PAIRS``).
 FORMANTS_BELOW_CEILING = 5
+
+#: Pole pairs beyond the formants, per voice (the glottal source's spectral
+#: shape, and in noise the floor the weak high harmonics sink into). Men get
+#: two: measured on the Peterson & Barney (1952) men's vowels (from memory)
+#: from the project synthesiser at F0 100-160 Hz (three seed sets), order
+#: 12 -> 14 moves the median F1 error from 0.9 % to 1.35-1.55 % clean but
+#: from 1.65-1.75 % to 1.2-1.3 % in 20 dB white noise (F2: 0.2 -> 0.5 %
+#: clean, 0.55-0.6 -> 0.5-0.55 % noisy). With a 5000 Hz band there are
+#: 30-50 harmonics at those F0s, enough for the 15 parameters; at higher F0
+#: ``DAP_HARMONICS_PER_PARAMETER`` lowers the order again.
+SOURCE_POLE_PAIRS: dict[str, int] = {"adult_male": 2, "adult_female": 1, "child": 1}
+
+#: Harmonics per model parameter the DAP fit keeps (``harmonics_per_parameter``
+#: of :func:`livevowel.dsp.dap.dap`): the order of a frame is lowered until it
+#: has at least this many. Women and children: 1.4, the default of
+#: ``dap.HARMONICS_PER_PARAMETER``. Men 2.0: with order 14 and 1.5, men's
+#: vowels at F0 170-240 Hz (20-29 harmonics) measured 4.3 % median F1 error;
+#: with 2.0 (orders 12, 10, 10 there; see dap.MAX_ORDER_DROP) 2.5 % (order
+#: 12 throughout: 3.4 %).
+DAP_HARMONICS_PER_PARAMETER: dict[str, float] = {"adult_male": 2.0, "adult_female": 1.4, "child": 1.4}
 
 #: F0 boundaries (Hz) of :func:`voice_from_f0` (between group means of
 #: Peterson & Barney 1952: men ~130, women ~220, children ~260 Hz, from memory).
@@ -205,6 +228,17 @@ class AnalysisSettings:
         F0 search range in Hz.
     yin_threshold : float
         YIN absolute threshold.
+    yin_skip_margin : float
+        ``skip_margin`` of :func:`~livevowel.dsp.pitch.yin`'s dip rule: a dip
+        below the threshold is passed over when its CMND value exceeds 2 x
+        the deepest dip's value plus this (and the fallback takes the first dip within this of
+        the deepest). 0.04 rather than yin's 0.05: in 20 dB noise a strong
+        second harmonic (children's /ɛ/, F1 690 Hz at F0 350 Hz) makes a dip
+        of ~0.07 at half the period while the period's own dip is ~0.015,
+        which 0.05 kept (octave-high F0). Measured on the Peterson & Barney
+        (1952) vowels (from memory) from the project synthesiser, three groups,
+        F0 100-400 Hz, clean and 20 dB SNR, three seed sets: frames with F0
+        more than 10 % off 68/66/70 (0.05) -> 32/38/41 (0.04).
     voicing_on, voicing_off : float
         Aperiodicity below which voicing turns on / above which it turns off.
     voicing_floor_db : float
@@ -238,6 +272,7 @@ class AnalysisSettings:
     f0_min_hz: float = 60.0
     f0_max_hz: float = 700.0
     yin_threshold: float = 0.1
+    yin_skip_margin: float = 0.04
     voicing_on: float = 0.25
     voicing_off: float = 0.4
     voicing_floor_db: float = -50.0
@@ -280,6 +315,8 @@ class AnalysisSettings:
             bad("need 0 < voicing_on <= voicing_off")
         if not (0 < self.yin_threshold < 1):
             bad("yin_threshold must be between 0 and 1")
+        if not (0 <= self.yin_skip_margin < 1):
+            bad("yin_skip_margin must be in 0..1")
         if self.hold_s < 0 or self.auto_settle_s < 0:
             bad("hold_s and auto_settle_s must be >= 0")
         if not (0 < self.smoother_alpha <= 1) or not self.smoother_jump > 0:
@@ -429,6 +466,7 @@ class _Plan:
     yin_w: int = 1
     nfft: int = 1024          # DAP's harmonic spectrum
     wspec: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
+    harmonics_per_parameter: float = 1.4   # DAP order limit, see DAP_HARMONICS_PER_PARAMETER
 
     @property
     def max_hz(self) -> np.ndarray:
@@ -461,7 +499,7 @@ def _make_plan(s: AnalysisSettings, voice: str, input_rate: int) -> tuple[_Plan,
     if s.ceiling_hz is not None:
         ref = ref * (ceiling / nominal)
     n_form = max(3, int(round(FORMANTS_BELOW_CEILING * ceiling / nominal)))
-    order = 2 * n_form + 2
+    order = 2 * n_form + 2 * SOURCE_POLE_PAIRS[voice]
     hop = max(1, int(round(s.hop_s * rate)))
     n = max(order + 2, int(round(s.window_s * rate)))
     f0_max = min(s.f0_max_hz, rate / 4.0)
@@ -476,42 +514,28 @@ def _make_plan(s: AnalysisSettings, voice: str, input_rate: int) -> tuple[_Plan,
     plan = _Plan(voice=voice, ceiling_hz=ceiling, rate_hz=rate, order=order, hop=hop, n=n, n_pitch=n_pitch,
                  ext=ext, coef=framing.pre_emphasis_coefficient(s.pre_emphasis_hz, rate),
                  taper=taper, ref_hz=ref, tau_min=tau_min, tau_max=tau_max, yin_w=n_pitch - tau_max - 1,
-                 nfft=nfft, wspec=_window_power(taper, nfft))
+                 nfft=nfft, wspec=_window_power(taper, nfft),
+                 harmonics_per_parameter=DAP_HARMONICS_PER_PARAMETER[voice])
     return plan, warns
 
 
 def _pitch(rows: np.ndarray, plan: _Plan, s: AnalysisSettings) -> tuple[np.ndarray, np.ndarray]:
-    """YIN F0 and aperiodicity with an octave-down check.
+    """YIN F0 and aperiodicity (de Cheveigné & Kawahara 2002) over the plan's F0 range.
 
-    YIN's first dip below the threshold can be at half the period when the
-    second harmonic dominates (F1 near 2 F0). If the cumulative mean
-    normalised difference at twice the chosen lag is less than half the
-    chosen one (and the chosen one is not already near 0, where both are
-    tiny on a clean periodic signal), the doubled lag is taken (de Cheveigné & Kawahara 2002,
-    sec. II.E discuss such "too high" errors).
+    No separate octave check: YIN's dip rule (``skip_factor``, see
+    :func:`~livevowel.dsp.pitch.yin`) already skips the early dip that a
+    strong second harmonic makes (F1 near 2 F0). An octave-down test that
+    halved F0 when the CMND at twice the lag was below half the chosen dip
+    used to follow here; on jittered high voices it fired on true periods
+    (the CMND at the period is only 0.03-0.08 there, and at twice the period
+    it is as often lower as higher): measured on the Peterson & Barney (1952)
+    women's vowels (from memory) from the project synthesiser at F0 350 and
+    400 Hz, 26 % and 43 % of voiced frames got half the F0 (YIN alone: 2 % and
+    0.3 %), and DAP then fitted a wrong harmonic grid.
     """
     f0_max = min(s.f0_max_hz, plan.rate_hz / 4.0)
-    f0, ap, dp = yin(rows, rate_hz=plan.rate_hz, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max,
-                     threshold=s.yin_threshold, fallback=True, return_cmnd=True)
-    tau_max = dp.shape[1] - 2
-    if len(f0) == 1:
-        f, a = float(f0[0]), float(ap[0])
-        if math.isfinite(f):
-            tau2 = int(round(2.0 * plan.rate_hz / f))
-            if 0 <= tau2 <= tau_max:
-                d2 = float(dp[0, tau2])
-                if a > 0.03 and d2 < 0.5 * a:
-                    return np.array([f / 2.0]), np.array([d2])
-        return f0, ap
-    ok = np.isfinite(f0)
-    if ok.any():
-        tau2 = np.where(ok, np.rint(2.0 * plan.rate_hz / np.where(ok, f0, 1.0)), 0).astype(int)
-        fits = ok & (tau2 <= tau_max)
-        d2 = np.where(fits, dp[np.arange(len(f0)), np.clip(tau2, 0, tau_max)], np.inf)
-        down = fits & (ap > 0.03) & (d2 < 0.5 * ap)
-        f0 = np.where(down, f0 / 2.0, f0)
-        ap = np.where(down, d2, ap)
-    return f0, ap
+    return yin(rows, rate_hz=plan.rate_hz, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max,
+               threshold=s.yin_threshold, fallback=True, skip_margin=s.yin_skip_margin)
 
 
 def relative_level(level_db: np.ndarray, s: AnalysisSettings, peak_db: float | None) -> tuple[np.ndarray, float | None]:
@@ -597,7 +621,8 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
             hf, hp, hw = harmonic_powers(cond[g], f0[g], rate_hz=plan.rate_hz,
                                          max_hz=plan.rate_hz / 2.0 - plan.min_hz, nfft=plan.nfft,
                                          window=plan.taper)
-            a_dap, _ = dap(hf, hp, hw, order=plan.order, rate_hz=plan.rate_hz, iterations=s.dap_iterations)
+            a_dap, _ = dap(hf, hp, hw, order=plan.order, rate_hz=plan.rate_hz, iterations=s.dap_iterations,
+                           harmonics_per_parameter=plan.harmonics_per_parameter)
             coeffs[g] = a_dap
     else:
         coeffs = lpc(cond, order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)
@@ -623,7 +648,7 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
         dp = np.empty(plan.tau_max + 2)
         sf = -1.0 if _YIN_SKIP_FACTOR is None else _YIN_SKIP_FACTOR
         level, f0, ap = _level_pitch_kernel(seg, plan.ext, plan.n, float(plan.rate_hz), plan.tau_min, plan.tau_max,
-                                            plan.yin_w, float(s.yin_threshold), sf, _YIN_SKIP_MARGIN, dp)
+                                            plan.yin_w, float(s.yin_threshold), sf, float(s.yin_skip_margin), dp)
         if pitch:
             out["level_db"] = np.array([level])
             out["f0_hz"] = np.array([f0])
@@ -643,7 +668,8 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
         spec = np.fft.rfft(cond, plan.nfft)
         spec = spec.real * spec.real + spec.imag * spec.imag
         _harmonic_dap_kernel(spec, f0, plan.rate_hz / plan.nfft, m, _HARMONIC_SEARCH, True, plan.wspec,
-                             plan.order, float(plan.rate_hz), int(s.dap_iterations), a)
+                             plan.order, float(plan.rate_hz), int(s.dap_iterations),
+                             float(plan.harmonics_per_parameter), a)
     elif use:
         # no harmonic below the top (F0 above it): the fit has nothing to use, as in the batch path
         a[:] = dap(np.zeros((1, 1)), np.ones((1, 1)), np.zeros((1, 1)), order=plan.order, rate_hz=plan.rate_hz,
@@ -656,16 +682,15 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
     return out
 
 
-#: YIN dip-skipping rule used by the engine (pitch.yin's defaults).
+#: YIN dip-skipping factor used by the engine (pitch.yin's default; the margin is a setting).
 _YIN_SKIP_FACTOR: float | None = 2.0
-_YIN_SKIP_MARGIN = 0.05
 #: Harmonic peak search half-width, fraction of F0 (dap.harmonic_powers' default).
 _HARMONIC_SEARCH = 0.25
 
 
 @jit
 def _level_pitch_kernel(seg, ext, n, rate, tau_min, tau_max, w, threshold, skip_factor, skip_margin, dp):  # pragma: no cover
-    """Level (dBFS) of the formant window, then YIN (fallback on) with the octave-down check of :func:`_pitch`."""
+    """Level (dBFS) of the formant window, then YIN (fallback on) over the pitch window, as :func:`_pitch`."""
     ms = 0.0
     for j in range(n):
         v = seg[ext + 1 + j]
@@ -674,12 +699,6 @@ def _level_pitch_kernel(seg, ext, n, rate, tau_min, tau_max, w, threshold, skip_
     level = 10.0 * math.log10(ms) if ms > 0 else -np.inf
     level = max(level, _LEVEL_FLOOR_DB)
     f, a = _yin_kernel(seg[1:], rate, tau_min, tau_max, w, threshold, True, skip_factor, skip_margin, dp)
-    if math.isfinite(f):
-        tau2 = int(np.rint(2.0 * rate / f))
-        if 0 <= tau2 <= tau_max:
-            d2 = dp[tau2]
-            if a > 0.03 and d2 < 0.5 * a:
-                return level, f / 2.0, d2
     return level, f, a
 
 
