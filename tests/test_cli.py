@@ -46,3 +46,27 @@ def test_source_that_looks_like_a_file_suggests_file_prefix():
 
     with pytest.raises(UserError, match="--source file:take.wav"):
         open_source("take.wav")
+
+
+def test_first_run_says_it_is_compiling_the_engine(monkeypatch, capsys):
+    # a machine with no compiled kernels on disk: the engine commands say why the start is slow
+    import livevowel.cli as cli
+    import livevowel.dsp._jit as jit_mod
+    import livevowel.dsp.engine as engine
+
+    calls = []
+    monkeypatch.setattr(jit_mod, "kernels_cached", lambda: False)
+    monkeypatch.setattr(engine, "warm_up", lambda settings=None: calls.append("warm"))
+    cli._prepare_engine()
+    assert calls == ["warm"]
+    assert "compiling the analysis engine" in capsys.readouterr().err
+
+
+def test_kernels_are_cached_after_warm_up():
+    # every compiled kernel has its machine code on disk once the engine has run once
+    from livevowel.dsp._jit import KERNELS, kernels_cached
+    from livevowel.dsp.engine import warm_up
+
+    warm_up()
+    assert len(KERNELS) >= 10
+    assert kernels_cached()
