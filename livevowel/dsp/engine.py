@@ -83,7 +83,7 @@ high (an ``xfail`` test records it).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
 import numpy as np
@@ -1288,7 +1288,8 @@ class StreamingAnalyzer:
 def warm_up(settings: AnalysisSettings | None = None) -> None:
     """Compile (first run) or load (later runs) the engine's compiled kernels.
 
-    Analyses 0.3 s of a synthetic vowel (Klatt synthesiser, F0 200 Hz), as
+    Analyses 0.8 s of a synthetic vowel (Klatt synthesiser, F0 200 Hz; long
+    enough for ``voice="auto"`` to settle) between silence and faint noise, as
     a stream and as a whole file, so every kernel is ready before live
     capture starts. Takes about 20 ms once the kernels are cached on disk;
     the first run on a machine compiles them (tens of seconds; see
@@ -1297,9 +1298,16 @@ def warm_up(settings: AnalysisSettings | None = None) -> None:
     from livevowel.dsp.synth import synthesize_vowel
 
     rate = 16000
-    x = synthesize_vowel(formants_hz=(600.0, 1600.0, 2600.0), f0_hz=200.0, duration_s=0.3, rate_hz=rate)
+    v = synthesize_vowel(formants_hz=(600.0, 1600.0, 2600.0), f0_hz=200.0, duration_s=0.8, rate_hz=rate)
+    # silence and faint noise as well: frames without F0 take other paths
+    noise = 1e-4 * np.random.default_rng(0).standard_normal(rate // 10)
+    x = np.concatenate([np.zeros(rate // 10), v, noise])
     s = settings if settings is not None else AnalysisSettings()
-    sa = StreamingAnalyzer(rate, settings=s)
-    sa.process(x)
-    sa.flush()
-    analyze(x[:2400], rate, settings=s)
+    # auto may settle on any voice: ready each one's plan (tables of its order) as well
+    voices = [s.voice] + ([v for v in NOMINAL_CEILING_HZ] if s.voice == "auto" else [])
+    for voice in voices:
+        sv = replace(s, voice=voice)
+        sa = StreamingAnalyzer(rate, settings=sv)
+        sa.process(x)
+        sa.flush()
+        analyze(x[:2400], rate, settings=sv)
