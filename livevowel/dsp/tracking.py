@@ -487,12 +487,20 @@ def _viterbi_kernel(cost, logf, w_trans):  # pragma: no cover - compiled
     new = np.empty(n_states)
     for j in range(1, m):
         for s in range(n_states):
+            if cost[j, s] == math.inf:
+                # an impossible reading stays impossible whatever came before (the
+                # path never passes through it: frames with no finite state are left out)
+                back[j, s] = 0
+                new[s] = math.inf
+                continue
             c0 = logf[j, s, 0]
             c1 = logf[j, s, 1]
             c2 = logf[j, s, 2]
             lo = math.inf
             arg = 0
             for p in range(n_states):
+                if acc[p] == math.inf:
+                    continue                  # inf + anything is never below lo
                 d0 = abs(c0 - logf[j - 1, p, 0])
                 d1 = abs(c1 - logf[j - 1, p, 1])
                 d2 = abs(c2 - logf[j - 1, p, 2])
