@@ -186,8 +186,8 @@ class LivePipeline(Sink):
         """Start the worker, then the source. Returns self."""
         if self._worker is not None:
             raise RuntimeError("pipeline already started")
-        # compiled kernels ready before capture starts (loaded from numba's cache
-        # in ~20 ms; compiled on a machine's first run), so no backlog builds up
+        # compiled kernels ready before capture starts (once per process: loaded from
+        # the cache in about 0.4 s, compiled on a machine's first run), so no backlog builds up
         from livevowel.dsp.engine import warm_up
 
         warm_up(self.settings)

@@ -84,16 +84,21 @@ ENGINE_COMMANDS = frozenset({"analyze", "listen", "practice", "demo", "drill", "
 
 
 def _prepare_engine() -> None:
-    """On the first run on a machine, say why the start is slow and compile the kernels."""
-    from livevowel.dsp._jit import kernels_cached
-    from livevowel.dsp.engine import warm_up      # imports every module with kernels
+    """Ready the engine's compiled kernels; if that takes a while (compiling, on the first
+    run on a machine or after an upgrade), say why the start is slow."""
+    import threading
 
-    if kernels_cached():
-        return
+    from livevowel.dsp.engine import warm_up
 
-    print("livevowel: first run on this machine: compiling the analysis engine "
-          "(once; about half a minute)...", file=sys.stderr, flush=True)
-    warm_up()
+    note = threading.Timer(1.0, lambda: print(
+        "livevowel: compiling the analysis engine (first run after installing; about half a minute)...",
+        file=sys.stderr, flush=True))
+    note.daemon = True
+    note.start()
+    try:
+        warm_up()
+    finally:
+        note.cancel()
 
 
 def main(argv: Sequence[str] | None = None) -> int:

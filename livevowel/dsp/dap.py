@@ -60,6 +60,9 @@ FLOOR_DB = -50.0
 #: Their weight in the fit (and the least weight any harmonic gets).
 LOST_WEIGHT = 0.3
 
+#: Default half-width of each harmonic's peak search, fraction of F0 (the engine uses it too).
+HARMONIC_SEARCH = 0.25
+
 #: The fit of a frame uses an order no higher than keeps at least this many
 #: harmonics per model parameter (p coefficients plus the gain). With about
 #: as many harmonics as parameters the all-pole model can pass through every
@@ -102,7 +105,7 @@ def _window_power(window: np.ndarray, nfft: int) -> np.ndarray:
 
 
 def harmonic_powers(frames: np.ndarray, f0_hz: np.ndarray, *, rate_hz: float, max_hz: float,
-                    nfft: int = 2048, search: float = 0.25, noise_floor: bool = True,
+                    nfft: int = 2048, search: float = HARMONIC_SEARCH, noise_floor: bool = True,
                     window: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Power and frequency of each harmonic of windowed frames.
 

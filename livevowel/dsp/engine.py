@@ -90,11 +90,12 @@ import numpy as np
 
 from livevowel.dsp import framing
 from livevowel.dsp._jit import jit
-from livevowel.dsp.dap import _harmonic_dap_kernel, _window_power, dap, harmonic_powers
+from livevowel.dsp.dap import HARMONIC_SEARCH, _harmonic_dap_kernel, _window_power, dap, harmonic_powers
 from livevowel.dsp.lpc import METHODS as LPC_METHODS
 from livevowel.dsp.lpc import _autocorrelation_lpc_kernel, candidates_from_coefficients, formant_candidates, lpc
 from livevowel.dsp.pitch import LEVEL_FLOOR_DB as _LEVEL_FLOOR_DB
-from livevowel.dsp.pitch import _lags, _yin_kernel, frame_level_db, voicing_hysteresis, yin, yin_frame_length
+from livevowel.dsp.pitch import (YIN_SKIP_FACTOR, _lags, _yin_kernel, frame_level_db, voicing_hysteresis, yin,
+                                 yin_frame_length)
 from livevowel.dsp.resample import StreamResampler, resample
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, FrameCoster, TrackerCosts, local_costs,
                                     median3, state_table, viterbi_segments)
@@ -535,7 +536,7 @@ def _pitch(rows: np.ndarray, plan: _Plan, s: AnalysisSettings) -> tuple[np.ndarr
     """
     f0_max = min(s.f0_max_hz, plan.rate_hz / 4.0)
     return yin(rows, rate_hz=plan.rate_hz, f0_min_hz=s.f0_min_hz, f0_max_hz=f0_max,
-               threshold=s.yin_threshold, fallback=True, skip_margin=s.yin_skip_margin)
+               threshold=s.yin_threshold, fallback=True, skip_factor=YIN_SKIP_FACTOR, skip_margin=s.yin_skip_margin)
 
 
 def relative_level(level_db: np.ndarray, s: AnalysisSettings, peak_db: float | None) -> tuple[np.ndarray, float | None]:
@@ -620,7 +621,7 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
         for g in groups:
             hf, hp, hw = harmonic_powers(cond[g], f0[g], rate_hz=plan.rate_hz,
                                          max_hz=plan.rate_hz / 2.0 - plan.min_hz, nfft=plan.nfft,
-                                         window=plan.taper)
+                                         search=HARMONIC_SEARCH, window=plan.taper)
             a_dap, _ = dap(hf, hp, hw, order=plan.order, rate_hz=plan.rate_hz, iterations=s.dap_iterations,
                            harmonics_per_parameter=plan.harmonics_per_parameter)
             coeffs[g] = a_dap
@@ -646,7 +647,7 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
     f0 = math.nan
     if pitch or (need_f0 and f0_hz is None):
         dp = np.empty(plan.tau_max + 2)
-        sf = -1.0 if _YIN_SKIP_FACTOR is None else _YIN_SKIP_FACTOR
+        sf = YIN_SKIP_FACTOR
         level, f0, ap = _level_pitch_kernel(seg, plan.ext, plan.n, float(plan.rate_hz), plan.tau_min, plan.tau_max,
                                             plan.yin_w, float(s.yin_threshold), sf, float(s.yin_skip_margin), dp)
         if pitch:
@@ -667,7 +668,7 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
     if use and m >= 1:
         spec = np.fft.rfft(cond, plan.nfft)
         spec = spec.real * spec.real + spec.imag * spec.imag
-        _harmonic_dap_kernel(spec, f0, plan.rate_hz / plan.nfft, m, _HARMONIC_SEARCH, True, plan.wspec,
+        _harmonic_dap_kernel(spec, f0, plan.rate_hz / plan.nfft, m, HARMONIC_SEARCH, True, plan.wspec,
                              plan.order, float(plan.rate_hz), int(s.dap_iterations),
                              float(plan.harmonics_per_parameter), a)
     elif use:
@@ -682,10 +683,6 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
     return out
 
 
-#: YIN dip-skipping factor used by the engine (pitch.yin's default; the margin is a setting).
-_YIN_SKIP_FACTOR: float | None = 2.0
-#: Harmonic peak search half-width, fraction of F0 (dap.harmonic_powers' default).
-_HARMONIC_SEARCH = 0.25
 
 
 @jit
@@ -1286,15 +1283,20 @@ class StreamingAnalyzer:
 
 
 def warm_up(settings: AnalysisSettings | None = None) -> None:
-    """Compile (first run) or load (later runs) the engine's compiled kernels.
+    """Compile (first run) or load (later runs) the engine's compiled kernels, once per process.
 
     Analyses 0.8 s of a synthetic vowel (Klatt synthesiser, F0 200 Hz; long
     enough for ``voice="auto"`` to settle) between silence and faint noise, as
     a stream and as a whole file, so every kernel is ready before live
-    capture starts. Takes about 20 ms once the kernels are cached on disk;
-    the first run on a machine compiles them (tens of seconds; see
-    :func:`livevowel.dsp._jit.kernels_cached`).
+    capture starts. Measured on a 2-core machine: about 0.4 s for the first
+    call in a process when the kernels are cached on disk (loading them), and
+    about half a minute on the first run after installing (compiling; see
+    :func:`livevowel.dsp._jit.kernels_cached`). Later calls in the same
+    process with the same voice setting return at once.
     """
+    key = (settings if settings is not None else AnalysisSettings()).voice
+    if key in _WARMED:
+        return
     from livevowel.dsp.synth import synthesize_vowel
 
     rate = 16000
@@ -1311,3 +1313,9 @@ def warm_up(settings: AnalysisSettings | None = None) -> None:
         sa.process(x)
         sa.flush()
         analyze(x[:2400], rate, settings=sv)
+        _WARMED.add(voice)
+    _WARMED.add(key)
+
+
+#: Voice settings :func:`warm_up` has run for in this process.
+_WARMED: set[str] = set()

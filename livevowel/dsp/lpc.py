@@ -663,13 +663,13 @@ def _autocorrelation_lpc_kernel(x, p, a):  # pragma: no cover - compiled
 
 
 @jit
-def _aberth_kernel(a, z, warm):  # pragma: no cover - compiled
+def _aberth_kernel(a, z):  # pragma: no cover - compiled
     """Roots of ``a[0] z^p + ... + a[p]`` into ``z`` (complex, p) by the Aberth-Ehrlich iteration
-    (Gauss-Seidel sweeps). The start is a circle, or with ``warm`` the values already in ``z``
-    (e.g. the previous frame's roots; taken only if they are distinct and non-zero). A root
-    stops when its correction is below 1e-14 of its size, or when the polynomial there is at
-    its rounding-error level and the corrections no longer shrink fast. False if it did not
-    converge or ``a`` is unusable."""
+    (Gauss-Seidel sweeps from points on a circle). A root stops when its correction is below
+    1e-14 of its size, or when the polynomial there is at its rounding-error level and the
+    corrections no longer shrink fast. The roots found are checked against the coefficients
+    (their sum is -a[1] / a[0], Vieta). False if it did not converge, failed the check or
+    ``a`` is unusable."""
     p = a.shape[0] - 1
     if not (a[0] != 0 and math.isfinite(a[0])):
         return False
@@ -683,28 +683,18 @@ def _aberth_kernel(a, z, warm):  # pragma: no cover - compiled
     deg = p
     while deg > 0 and c[deg] == 0.0:
         deg -= 1
-    if deg < p:
-        warm = False
-        for k in range(deg, p):
-            z[k] = 0.0
+    for k in range(deg, p):
+        z[k] = 0.0
     if deg == 0:
         return True
     p = deg
-    if warm:
-        for k in range(p):
-            if z[k] == 0 or not (math.isfinite(z[k].real) and math.isfinite(z[k].imag)):
-                warm = False
-            for j in range(k):
-                if abs(z[k] - z[j]) < 1e-6:
-                    warm = False
-    if not warm:
-        rad = 0.0
-        for k in range(1, p + 1):
-            rad = max(rad, abs(c[k]) ** (1.0 / k))
-        rad = min(max(rad, 0.5), 2.0)
-        for k in range(p):
-            ang = 2.0 * math.pi * k / p + 0.4
-            z[k] = complex(rad * math.cos(ang), rad * math.sin(ang))
+    rad = 0.0
+    for k in range(1, p + 1):
+        rad = max(rad, abs(c[k]) ** (1.0 / k))
+    rad = min(max(rad, 0.5), 2.0)
+    for k in range(p):
+        ang = 2.0 * math.pi * k / p + 0.4
+        z[k] = complex(rad * math.cos(ang), rad * math.sin(ang))
     done = np.zeros(p, dtype=np.bool_)
     last_w = np.full(p, np.inf)
     for _ in range(200):
@@ -747,27 +737,30 @@ def _aberth_kernel(a, z, warm):  # pragma: no cover - compiled
                 done[k] = True
             last_w[k] = aw
         if n_done == p:
-            return True
+            # Vieta: the roots must sum to -c[1]; a root found twice (another one missed)
+            # breaks this by about the missing root's size
+            tot = complex(0.0, 0.0)
+            scale = 0.0
+            for k in range(p):
+                tot += z[k]
+                scale += abs(z[k])
+            return abs(tot + c[1]) <= 1e-8 * max(scale, 1.0)
     return False
 
 
 @jit
 def _candidates_rows_kernel(a, rate, min_hz, max_hz, max_bw, f_out, b_out, done):  # pragma: no cover - compiled
     """:func:`_candidates_kernel` for every row; ``done[i]`` False where row i needs the fallback."""
-    # each row starts from the previous row's roots (consecutive frames have close roots:
-    # about half the sweeps of a cold start)
+    # every row starts afresh, so a frame's candidates do not depend on its neighbours in the batch
     z = np.empty(a.shape[1] - 1, dtype=np.complex128)
-    warm = False
     for i in range(a.shape[0]):
-        done[i] = _candidates_kernel(a[i], rate, min_hz, max_hz, max_bw, f_out[i], b_out[i], z, warm)
-        warm = done[i]
+        done[i] = _candidates_kernel(a[i], rate, min_hz, max_hz, max_bw, f_out[i], b_out[i], z)
 
 
 @jit
-def _candidates_kernel(a, rate, min_hz, max_hz, max_bw, f_out, b_out, z, warm):  # pragma: no cover - compiled
+def _candidates_kernel(a, rate, min_hz, max_hz, max_bw, f_out, b_out, z):  # pragma: no cover - compiled
     """:func:`formant_candidates` of one inverse filter into ``f_out, b_out`` (NaN-padded), the roots
-    left in ``z`` (p); ``warm``: start from the roots in ``z``. False when the roots did not
-    converge (the caller falls back to eigenvalues)."""
+    left in ``z`` (p). False when the roots did not converge (the caller falls back to eigenvalues)."""
     p = a.shape[0] - 1
     f_out[:] = np.nan
     b_out[:] = np.nan
@@ -777,7 +770,7 @@ def _candidates_kernel(a, rate, min_hz, max_hz, max_bw, f_out, b_out, z, warm): 
             ok = False
     if not ok or a[0] == 0:
         return True                      # unusable filter: no candidates (as polynomial_roots' NaN rows)
-    if not _aberth_kernel(a, z, warm):
+    if not _aberth_kernel(a, z):
         return False
     fscale = rate / (2.0 * math.pi)
     bscale = rate / math.pi

@@ -23,12 +23,16 @@ __all__ = [
     "cmnd",
     "frame_level_db",
     "LEVEL_FLOOR_DB",
+    "YIN_SKIP_FACTOR",
     "voicing_hysteresis",
     "VoicingGate",
 ]
 
 #: Lowest level :func:`frame_level_db` reports, dB re full scale 1.0.
 LEVEL_FLOOR_DB = -120.0
+
+#: Default ``skip_factor`` of :func:`yin`'s dip rule (the engine uses it too).
+YIN_SKIP_FACTOR = 2.0
 
 
 
@@ -178,7 +182,7 @@ def _cmnd_kernel(d, out):  # pragma: no cover - compiled
 
 
 def yin(frames, *, rate_hz: float, f0_min_hz: float = 60.0, f0_max_hz: float = 600.0,
-        threshold: float = 0.15, fallback: bool = False, skip_factor: float | None = 2.0,
+        threshold: float = 0.15, fallback: bool = False, skip_factor: float | None = YIN_SKIP_FACTOR,
         skip_margin: float = 0.05, return_cmnd: bool = False):
     """YIN fundamental-frequency estimate per frame (de Cheveigné & Kawahara 2002).
 
