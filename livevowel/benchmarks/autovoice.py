@@ -8,7 +8,9 @@ values across each group's range and into the overlap: men 100-160 Hz, women
 180-300 Hz, children 230-300 Hz (group mean F0 about 130 / 220 / 240-260 Hz
 in Hillenbrand et al. 1995 and Peterson & Barney 1952, from memory). The
 decision rule's own templates are Peterson & Barney (1952) means, so the
-test tokens come from a different data set than the rule.
+test tokens come from a different data set than the rule (but the rule's
+spreads, voicegroup.LOG_SD, were chosen among a few nearby values on these
+same tokens, so this is not an untouched test of them).
 
 Run the full table with ``python -m livevowel.benchmarks.autovoice``
 (``--quick`` for four vowels); ``livevowel bench --only dsp`` prints the
