@@ -371,3 +371,20 @@ def test_causal_track_recovers_after_abrupt_changes_between_all_vowels(seed):
         count += int(m.sum())
     assert count > 0.8 * len(spans) * 0.2 / 0.01
     assert off <= 0.02 * count, f"{off} of {count} steady frames more than 20 % off"
+
+
+def test_causal_tracker_is_safe_with_buffers_refilled_in_place():
+    # a caller that keeps two buffers and refills one in place (here after skipping a frame)
+    # gets the decisions of a caller that passes fresh arrays: the kept transitions are only
+    # reused for equal state values (reference: the same calls on fresh copies)
+    freq, bw, f0 = _random_tables(80, seed=11)
+    st = state_table(freq.shape[1])
+    cost, sf, _ = local_costs_reference(freq, bw, states=st, ref_hz=REF, f0_hz=f0, costs=COSTS)
+    order = [i for i in range(len(freq) - 1) if i % 7 != 3]          # every seventh frame skipped
+    fresh, reused = CausalTracker(COSTS), CausalTracker(COSTS)
+    bufs = [(np.empty_like(cost[0]), np.empty_like(sf[0])) for _ in range(2)]
+    for j, i in enumerate(order):
+        want = fresh.step(cost[i].copy(), sf[i].copy(), cost[i + 1].copy(), sf[i + 1].copy())
+        (ct, stt), (cn, sn) = bufs[j % 2], bufs[(j + 1) % 2]
+        ct[:], stt[:], cn[:], sn[:] = cost[i], sf[i], cost[i + 1], sf[i + 1]
+        assert reused.step(ct, stt, cn, sn) == want, i

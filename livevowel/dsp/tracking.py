@@ -609,8 +609,8 @@ class CausalTracker:
 
         ``cost_t (S,)``, ``sf_t (S, 3)``: local costs and state values of frame t (from
         :func:`local_costs`); ``cost_n``, ``sf_n`` the same for frame t + 1, or None.
-        The transitions into frame t + 1 are kept for the next call when it passes the
-        same ``sf_n`` object as its ``sf_t``: do not change those arrays in place.
+        The transitions into frame t + 1 are kept for the next call and reused when it
+        passes the same state values as its ``sf_t`` (compared with a copy kept here).
         """
         cost_t = _as_f64(cost_t)
         sf_t = _as_f64(sf_t)
@@ -620,7 +620,7 @@ class CausalTracker:
         tr_ready = False
         if have_prev:
             look = self._look
-            if look is not None and look[0] is sf_t:
+            if look is not None and (look[0] is sf_t or np.array_equal(look[0], sf_t, equal_nan=True)):
                 tr = look[1]       # transitions into this frame: the lookahead of the last step
                 tr_ready = True
             else:
@@ -642,9 +642,10 @@ class CausalTracker:
                                         have_next, self._w_trans, acc, trn)
         if st < 0:
             return -1, -1
-        self._look = (sf_n, trn) if looked else None
+        # a copy: a caller that refills one buffer in place must not get stale transitions
+        self._look = (sf_n.copy(), trn) if looked else None
         self.acc = acc
-        self.sf = sf_t
+        self.sf = sf_t.copy()         # the caller may refill its array in place
         self.prev = sf_t[st].copy()
         return st, nxt
 
