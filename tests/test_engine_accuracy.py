@@ -180,5 +180,9 @@ def test_glide_is_followed(causal):
         err = np.abs(getattr(fr, name)[v] / t[name][v] - 1)
         assert np.nanmedian(err) < 0.05
         assert np.mean(~(err < 0.2)) <= 0.05
-    # the F2 rise is monotone enough: the end is far from the start
-    assert np.nanmedian(fr.f2_hz[fr.time_s > 0.3]) > 1.8 * np.nanmedian(fr.f2_hz[fr.time_s < 0.05])
+    # the F2 rise is followed: end over start as in the synthesiser's track (1.78 on these frames),
+    # within 4 % (a fixed bound of 1.8 was above the true ratio and passed only while the start read low)
+    late, early = fr.time_s > 0.3, (fr.time_s < 0.05) & np.isfinite(fr.f2_hz)
+    rise = np.nanmedian(fr.f2_hz[late]) / np.nanmedian(fr.f2_hz[early])
+    true_rise = np.median(t["f2_hz"][late]) / np.median(t["f2_hz"][early])
+    assert abs(rise / true_rise - 1) < 0.04

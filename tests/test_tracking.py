@@ -17,7 +17,7 @@ import pytest
 from livevowel.dsp.engine import AnalysisSettings, analyze
 from livevowel.dsp.synth import Schedule, Segment, render
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, FrameCoster, TrackerCosts, local_costs,
-                                    local_costs_reference, median3, median3_reference, state_table,
+                                    local_costs_reference, median3, median3_reference, median5_hanning, state_table,
                                     transition_costs, transition_costs_reference, viterbi_segments,
                                     viterbi_segments_reference)
 
@@ -121,6 +121,35 @@ def test_causal_tracker_with_lookahead_follows_the_track():
 def test_median3_ignores_missing_neighbours():
     a, b, c = np.array([1.0, np.nan, 5.0]), np.array([2.0, 2.0, np.nan]), np.array([9.0, 4.0, 1.0])
     np.testing.assert_allclose(median3(a, b, c), [2.0, 3.0, np.nan])
+
+
+def test_median5_hanning_is_median_then_hanning_inside_a_run():
+    """Rabiner, Sambur & Schmidt (1975): running median of 5, then the
+    3-point Hanning window [1/4, 1/2, 1/4]; interior values checked against
+    scipy.signal.medfilt and numpy.convolve (reference libraries)."""
+    from scipy.signal import medfilt
+
+    rng = np.random.default_rng(3)
+    x = 1000.0 + 30.0 * rng.standard_normal(60)
+    want = np.convolve(medfilt(x, 5), [0.25, 0.5, 0.25], mode="same")
+    got = median5_hanning(x)
+    np.testing.assert_allclose(got[3:-3], want[3:-3], rtol=1e-12)
+    # worked by hand: run edges shrink the median window to 3 then 1 and skip the Hanning window
+    y = np.array([np.nan, 1.0, 2.0, 10.0, 4.0, 5.0, np.nan, 7.0, 8.0])
+    np.testing.assert_allclose(median5_hanning(y), [np.nan, 1.0, 2.25, 3.75, 4.75, 5.0, np.nan, 7.0, 8.0])
+
+
+def test_median5_hanning_keeps_steps_and_drops_outliers():
+    """A vowel change (step) stays a step, moved by at most a quarter of it on one
+    frame each side; a two-frame outlier in a run vanishes; columns are separate."""
+    step = np.r_[np.full(10, 500.0), np.full(10, 700.0)]
+    out = median5_hanning(np.column_stack([step, step[::-1]]))
+    np.testing.assert_allclose(out[:, 0], np.r_[np.full(9, 500.0), 550.0, 650.0, np.full(9, 700.0)])
+    np.testing.assert_allclose(out[:, 1], out[::-1, 0])
+    spike = np.full(15, 1200.0)
+    spike[6:8] = 2400.0
+    np.testing.assert_allclose(median5_hanning(spike), 1200.0)
+    assert median5_hanning(np.zeros((0, 3))).shape == (0, 3)
 
 
 def test_display_smoother_passes_jumps_and_damps_jitter():

@@ -35,9 +35,11 @@ Stages (both paths)
 5. *Tracking* (:mod:`livevowel.dsp.tracking`): candidates -> F1/F2/F3 with
    costs for bandwidth, distance from the voice's reference formants,
    harmonic attraction and frame-to-frame change.
-6. *Smoothing*: offline, median of three along the track; causal, median of
-   (previous, current, provisional next) and an adaptive one-pole filter that
-   resets on jumps.
+6. *Smoothing*: offline, running median of five then a 3-point Hanning
+   window along the track within runs of measured frames
+   (:func:`~livevowel.dsp.tracking.median5_hanning`, Rabiner, Sambur &
+   Schmidt 1975); causal, median of (previous, current, provisional next)
+   and an adaptive one-pole filter that resets on jumps.
 7. *Gaps*: unvoiced runs up to ``hold_s`` (50 ms) keep the tracker state and
    report the last formants (``voiced`` False, confidence 0); longer runs
    reset it and report NaN.
@@ -98,7 +100,7 @@ from livevowel.dsp.pitch import (YIN_SKIP_FACTOR, _lags, _yin_kernel, frame_leve
                                  yin_frame_length)
 from livevowel.dsp.resample import StreamResampler, resample
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, FrameCoster, TrackerCosts, local_costs,
-                                    median3, state_table, viterbi_segments)
+                                    median5_hanning, state_table, viterbi_segments)
 from livevowel.dsp.types import Frame, FrameTrack
 from livevowel.dsp.voicegroup import add_frame_cost, voice_from_costs, voice_from_frames
 from livevowel.errors import UserError
@@ -886,10 +888,8 @@ def _offline_track(feat: dict, voiced: np.ndarray, times: np.ndarray, plan: _Pla
         ok = best >= 0
         raw_f[idx[ok]] = sf[np.flatnonzero(ok), best[ok]]
         raw_b[idx[ok]] = sb[np.flatnonzero(ok), best[ok]]
-    # median of three along the track, within runs of measured frames
-    prev = np.vstack([np.full((1, 3), np.nan), raw_f[:-1]]) if n else raw_f
-    nxt = np.vstack([raw_f[1:], np.full((1, 3), np.nan)]) if n else raw_f
-    sm = median3(prev, raw_f, nxt)
+    # median of five then Hanning of three along the track, within runs of measured frames
+    sm = median5_hanning(raw_f)
     conf = _confidence(sm, raw_b, raw_f, feat["aper"], feat["level_db"], s.voicing_floor_db)
     out_f = sm.copy()
     out_b = raw_b.copy()
