@@ -37,6 +37,7 @@ import math
 import numpy as np
 
 from livevowel.dsp._jit import jit
+from livevowel.dsp.lpc import _levinson_kernel
 
 __all__ = ["harmonic_powers", "dap", "dap_orders"]
 
@@ -406,30 +407,6 @@ def _dap_order_kernel(freq_hz, power, w, p, rate_hz, iterations, h, a):  # pragm
 
 
 @jit
-def _levinson(r, a):  # pragma: no cover - compiled
-    """Autocorrelation LPC of ``r`` (p + 1) into ``a`` (Levinson-Durbin); ``[1, 0, ...]`` for r[0] <= 0."""
-    p = r.shape[0] - 1
-    a[:] = 0.0
-    a[0] = 1.0
-    err = r[0]
-    if not err > 0:
-        return
-    tmp = np.empty(p + 1)
-    for i in range(1, p + 1):
-        acc = r[i]
-        for j in range(1, i):
-            acc += a[j] * r[i - j]
-        k = -acc / err
-        tmp[:i + 1] = a[:i + 1]
-        for j in range(1, i):
-            a[j] = tmp[j] + k * tmp[i - j]
-        a[i] = k
-        err *= 1.0 - k * k
-        if not err > 0:
-            return
-
-
-@jit
 def _invert(t, out):  # pragma: no cover - compiled
     """Gauss-Jordan inverse with partial pivoting; False when (nearly) singular."""
     n = t.shape[0]
@@ -521,7 +498,7 @@ def _dap_kernel(freq_hz, power, w, p, rate_hz, iterations, a):  # pragma: no cov
         r[k] /= max(cnt, 1.0)
     r[0] *= 1.0 + 1e-9
     if not live >= (p + 1) / 2.0:
-        _levinson(r, a)
+        _levinson_kernel(r, a)
         return False
     toe = np.empty((p + 1, p + 1))
     for i in range(p + 1):
@@ -529,7 +506,7 @@ def _dap_kernel(freq_hz, power, w, p, rate_hz, iterations, a):  # pragma: no cov
             toe[i, j] = r[abs(i - j)]
     tinv = np.empty((p + 1, p + 1))
     if not (r[0] > 0 and _invert(toe, tinv)):
-        _levinson(r, a)
+        _levinson_kernel(r, a)
         return False
     # the LPC start: T a = err e_0, so a is the first column of T^-1 scaled to a[0] = 1
     for k in range(p + 1):

@@ -642,6 +642,15 @@ def _autocorrelation_lpc_kernel(x, p, a):  # pragma: no cover - compiled
         for j in range(n - k):
             acc += x[j] * x[j + k]
         r[k] = acc
+    _levinson_kernel(r, a)
+
+
+@jit
+def _levinson_kernel(r, a):  # pragma: no cover - compiled
+    """Inverse filter ``a`` (p + 1) from the autocorrelation ``r`` (p + 1) by the Levinson-Durbin
+    recursion (as :func:`levinson_durbin`); ``[1, 0, ...]`` for ``r[0] <= 0``, and the recursion
+    stops where the prediction error reaches 0."""
+    p = r.shape[0] - 1
     a[:] = 0.0
     a[0] = 1.0
     err = r[0]
