@@ -19,11 +19,11 @@ from hypothesis import HealthCheck, given
 from hypothesis import settings as hsettings
 from hypothesis import strategies as st
 
-from livevowel.dsp.engine import AnalysisSettings, StreamingAnalyzer, analyze
+from livevowel.dsp.engine import AnalysisSettings, analyze
 from livevowel.dsp.synth import Schedule, Segment, render, synthesize_vowel
-from livevowel.dsp.types import FrameTrack
 from livevowel.dsp.voicegroup import GROUP_VOICES, PB1952_MEANS, group_costs, voice_from_frames
 from livevowel.targets import load_target_set
+from streams import stream_in_blocks
 
 AUTO = AnalysisSettings(voice="auto")
 RATE = 16000
@@ -100,15 +100,8 @@ def test_a_run_of_vowels_in_the_overlap_decides_right(table, voice, f0, expect, 
 
 
 def _stream(x, sizes, settings):
-    sa = StreamingAnalyzer(RATE, settings=settings)
-    out, i, j = [], 0, 0
-    while i < len(x):
-        n = sizes[j % len(sizes)]
-        out.append(sa.process(x[i:i + n]))
-        i += n
-        j += 1
-    out.append(sa.flush())
-    return FrameTrack.concat(out), sa.voice
+    track, sa = stream_in_blocks(x, RATE, settings, sizes)
+    return track, sa.voice
 
 
 @pytest.mark.parametrize("sizes", [[160], [1000, 17], [4321]])

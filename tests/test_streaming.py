@@ -16,6 +16,7 @@ from hypothesis import HealthCheck, given, settings as hsettings, strategies as 
 from livevowel.dsp.engine import AnalysisSettings, StreamingAnalyzer, analyze
 from livevowel.dsp.synth import Schedule, Segment, render, synthesize_vowel
 from livevowel.dsp.types import FrameTrack
+from streams import stream_in_blocks
 
 # Peterson & Barney (1952), men's /ɑ/ and /i/ means (from memory)
 MEN_A = (730.0, 1090.0, 2440.0)
@@ -35,15 +36,7 @@ def _glide(rate: int, seconds: float = 0.45) -> np.ndarray:
 
 
 def _stream(x, rate, s, sizes) -> FrameTrack:
-    sa = StreamingAnalyzer(rate, settings=s)
-    parts, i, j = [], 0, 0
-    while i < len(x):
-        n = sizes[j % len(sizes)]
-        parts.append(sa.process(x[i:i + n]))
-        i += n
-        j += 1
-    parts.append(sa.flush())
-    return FrameTrack.concat(parts)
+    return stream_in_blocks(x, rate, s, sizes)[0]
 
 
 def _assert_same(a: FrameTrack, b: FrameTrack) -> None:

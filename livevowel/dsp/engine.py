@@ -674,9 +674,9 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
                              plan.order, float(plan.rate_hz), int(s.dap_iterations),
                              float(plan.harmonics_per_parameter), a)
     elif use:
-        # no harmonic below the top (F0 above it): the fit has nothing to use, as in the batch path
-        a[:] = dap(np.zeros((1, 1)), np.ones((1, 1)), np.zeros((1, 1)), order=plan.order, rate_hz=plan.rate_hz,
-                   iterations=s.dap_iterations)[0][0]
+        # no harmonic below the top (F0 above it): nothing to fit; DAP of no harmonics is A(z) = 1
+        a[:] = 0.0
+        a[0] = 1.0
     elif s.method in ("dap", "hybrid", "autocorrelation"):
         _autocorrelation_lpc_kernel(cond, plan.order, a)
     else:

@@ -562,6 +562,19 @@ def _toeplitz_solve(r: np.ndarray) -> np.ndarray:
 # roots and formants
 
 
+def _as_coefficients(a) -> np.ndarray:
+    """Inverse filters as float64 ``(n, p + 1)``, p >= 1; one filter ``(p + 1,)`` becomes ``(1, p + 1)``."""
+    a = np.asarray(a)
+    if a.dtype.kind not in "fiu":
+        raise ValueError(f"a must be a real numeric array, got dtype {a.dtype}")
+    a = a.astype(np.float64, copy=False)
+    if a.ndim == 1:
+        a = a[np.newaxis, :]
+    if a.ndim != 2 or a.shape[1] < 2:
+        raise ValueError(f"a must have shape (n, p + 1) with p >= 1, got {a.shape}")
+    return a
+
+
 def polynomial_roots(a) -> np.ndarray:
     """Roots of each polynomial ``a[i, 0] z^p + a[i, 1] z^(p-1) + ... + a[i, p]``.
 
@@ -581,14 +594,7 @@ def polynomial_roots(a) -> np.ndarray:
         In no particular order. Rows with a non-finite coefficient or
         ``a[:, 0] == 0`` come back as NaN.
     """
-    a = np.asarray(a)
-    if a.dtype.kind not in "fiu":
-        raise ValueError(f"a must be a real numeric array, got dtype {a.dtype}")
-    a = a.astype(np.float64, copy=False)
-    if a.ndim == 1:
-        a = a[np.newaxis, :]
-    if a.ndim != 2 or a.shape[1] < 2:
-        raise ValueError(f"a must have shape (n, p + 1) with p >= 1, got {a.shape}")
+    a = _as_coefficients(a)
     n, p1 = a.shape
     p = p1 - 1
     good = np.isfinite(a).all(axis=1) & (a[:, 0] != 0)
@@ -865,13 +871,7 @@ def formant_candidates(a, *, rate_hz: float, min_hz: float = 50.0, max_hz: float
         if max_hz is None:
             max_hz = rate / 2.0 - min_hz
         _check_band(min_hz, max_hz, max_bandwidth_hz)
-        coef = np.asarray(a)
-        if coef.dtype.kind not in "fiu":
-            raise ValueError(f"a must be a real numeric array, got dtype {coef.dtype}")
-        coef = np.atleast_2d(coef.astype(np.float64, copy=False))
-        if coef.ndim != 2 or coef.shape[1] < 2:
-            raise ValueError(f"a must have shape (n, p + 1) with p >= 1, got {coef.shape}")
-        return candidates_from_coefficients(coef, rate_hz=rate, min_hz=float(min_hz), max_hz=float(max_hz),
+        return candidates_from_coefficients(_as_coefficients(a), rate_hz=rate, min_hz=float(min_hz), max_hz=float(max_hz),
                                             max_bandwidth_hz=max_bandwidth_hz)
     else:
         roots = np.asarray(roots)

@@ -451,22 +451,8 @@ def viterbi_segments(cost: np.ndarray, sf: np.ndarray, segment_start: np.ndarray
     sf = np.asarray(sf, dtype=np.float64)
     if cost.ndim != 2 or sf.shape != cost.shape + (3,):
         raise ValueError(f"need cost (n, S) and sf (n, S, 3); got {cost.shape} and {sf.shape}")
-    n, s = cost.shape
-    best = np.full(n, -1, dtype=np.int64)
-    if n == 0:
-        return best
-    feasible = np.isfinite(cost).any(axis=1)
-    start = np.asarray(segment_start, dtype=bool).copy()
-    if start.shape != (n,):
-        raise ValueError(f"segment_start must have shape ({n},), got {start.shape}")
-    start[0] = True
-    # segments; inside one, frames with no possible state are stepped over
-    # (the path links the feasible frames either side of them)
-    bounds = list(np.flatnonzero(start)) + [n]
-    for a, b in zip(bounds[:-1], bounds[1:]):
-        idx = np.flatnonzero(feasible[a:b]) + a
-        if not len(idx):
-            continue
+    best = np.full(cost.shape[0], -1, dtype=np.int64)
+    for idx in _feasible_segments(cost, segment_start):
         with np.errstate(invalid="ignore", divide="ignore"):
             logf = np.log(sf[idx])                # (len, S, 3); NaN where missing
         logf = np.where(np.isfinite(logf), logf, np.nan)
@@ -532,21 +518,29 @@ def _viterbi_kernel(cost, logf, w_trans):  # pragma: no cover - compiled
     return path
 
 
+def _feasible_segments(cost: np.ndarray, segment_start: np.ndarray) -> list[np.ndarray]:
+    """Frame indices of each segment (a new one where ``segment_start``, and at frame 0),
+    leaving out frames with no possible state (the path links the feasible frames either
+    side of them); empty segments are dropped."""
+    n = cost.shape[0]
+    if n == 0:
+        return []
+    feasible = np.isfinite(cost).any(axis=1)
+    start = np.asarray(segment_start, dtype=bool).copy()
+    if start.shape != (n,):
+        raise ValueError(f"segment_start must have shape ({n},), got {start.shape}")
+    start[0] = True
+    bounds = list(np.flatnonzero(start)) + [n]
+    segs = [np.flatnonzero(feasible[a:b]) + a for a, b in zip(bounds[:-1], bounds[1:])]
+    return [idx for idx in segs if len(idx)]
+
+
 def viterbi_segments_reference(cost: np.ndarray, sf: np.ndarray, segment_start: np.ndarray,
                                costs: TrackerCosts) -> np.ndarray:
     """:func:`viterbi_segments` with numpy array operations (the definition; slower)."""
     n, s = cost.shape
     best = np.full(n, -1, dtype=np.int64)
-    if n == 0:
-        return best
-    feasible = np.isfinite(cost).any(axis=1)
-    start = np.asarray(segment_start, dtype=bool).copy()
-    start[0] = True
-    bounds = list(np.flatnonzero(start)) + [n]
-    for a, b in zip(bounds[:-1], bounds[1:]):
-        idx = [t for t in range(a, b) if feasible[t]]
-        if not idx:
-            continue
+    for idx in _feasible_segments(cost, segment_start):
         acc = cost[idx[0]].copy()
         back = np.zeros((len(idx), s), dtype=np.int64)
         with np.errstate(invalid="ignore", divide="ignore"):
