@@ -24,11 +24,31 @@ from typing import Any, Sequence
 
 @dataclass(frozen=True)
 class HitEvent:
-    """Something the screen may react to: ``kind`` is "attempt", "hit" or "miss"."""
+    """Something the screen may react to: ``kind`` is "attempt", "hit" or "miss".
+
+    ``size_sd``: the hit size (SD units) it was judged at, where that is not
+    the target's own (a drill's task); None otherwise.
+    """
 
     kind: str
     time_s: float
     target_id: str
+    size_sd: float | None = None
+
+
+@dataclass(frozen=True)
+class Tally:
+    """Counts a controller keeps for the screen's header instead of the screen's own.
+
+    A drill judges each attempt itself (:mod:`livevowel.session.judge`); its
+    controller hands the screen these numbers so that the header shows what
+    is recorded. ``scope`` says what they cover (e.g. "block 2").
+    """
+
+    hits: int
+    trials: int
+    streak: int
+    scope: str = ""
 
 
 @dataclass
@@ -189,6 +209,21 @@ class TargetController:
         self.version = 0
         #: Short description for the screen's header ("" for free stepping).
         self.label = "one target" if locked else ""
+
+    #: Size (SD units) at which the screen draws and tests the current region;
+    #: None: the target's own ``hit_size_sd``. A drill sets its task's size.
+    hit_size_sd: float | None = None
+    #: Hold (s) for the screen's hold arc and hits; None or 0: the screen's own.
+    hold_s: float | None = None
+    #: Counts for the header (:class:`Tally`); None: the screen counts itself.
+    tally: "Tally | None" = None
+
+    def take_events(self) -> "list[HitEvent] | None":
+        """Results judged by the controller's owner since the last call, or None
+        when the screen's own hold-based hits are the ones to show (the plain
+        controller). A drill returns its recorded hits and misses, and the
+        screen pulses and sounds the tone for those instead."""
+        return None
 
     @property
     def current(self) -> Any:

@@ -405,3 +405,56 @@ def test_coach_led_on_the_screen_moves_on_with_the_arrow_key(tmp_path, recorded,
     # without the key both attempts would be trials of the first prompt (FLEECE), the second a miss
     assert [(r["prompt"], r["target_id"], r["trial"], r["auto_hit"]) for r in rows] == [
         ("beat", "fleece", 1, 1), ("bit", "kit", 2, 1)]
+
+
+def test_drill_screen_draws_counts_and_pulses_what_is_judged(tmp_path, recorded, monkeypatch, capsys):
+    """After an adaptive change the region drawn is the one judged, and the header shows the record."""
+    from livevowel.ui import screen as screen_mod
+
+    made = []
+    orig = screen_mod.PracticeScreen.__init__
+
+    def init(self, *a, **kw):
+        orig(self, *a, **kw)
+        made.append(self)
+
+    monkeypatch.setattr(screen_mod.PracticeScreen, "__init__", init)
+    drill = dict(DRILL, blocks=[{
+        "id": "fk", "order": "contrast", "repetitions": 2, "hit_size_sd": 2.0, "hold_s": 0.1,
+        "items": [{"prompt": "beat", "target": "fleece"}, {"prompt": "bit", "target": "kit"}],
+        # two hits in two trials: harder, hit size 2.0 -> 1.0
+        "adapt": {"every": 2, "harder_at": 0.8, "easier_at": 0.2, "change": ["hit_size"], "hit_size_factor": 0.5,
+                  "hit_size_range": [0.5, 3.0]}}])
+    path = tmp_path / "adapt.yaml"
+    path.write_text(yaml.safe_dump(drill))
+    rc = main(["practice", "--drill", str(path), "--headless", "--screenshot", str(tmp_path / "a.png"),
+               "--source", f"file:{recorded['short']}", "--pace", "0", "--data", str(tmp_path / "d"),
+               "--no-tone", "--size", "640x400", "--quiet"])
+    assert rc == 0 and (tmp_path / "a.png").exists()
+    rows = Store.open(tmp_path / "d").attempts(1)
+    assert [(r["target_id"], r["auto_hit"]) for r in rows] == [("fleece", 1), ("kit", 1)]
+    (scr,) = made
+    cur = scr.controller.current
+    assert cur.id == "fleece"                          # trial 3 of the block is up
+    assert scr.task() == (1.0, 0.1)                    # the adapted size and the block's hold
+    assert scr.counter.hold_s == 0.1
+    assert scr.counts() == (2, 2, 2, "block 1")        # the recorded trials, not the screen's own count
+    # pulses follow the recorded results, at the size each was judged at (before the change)
+    assert [(e.kind, e.target_id, e.size_sd) for e in scr.events] == [("hit", "fleece", 2.0), ("hit", "kit", 2.0)]
+
+    def area(poly):                                    # shoelace formula
+        x, y = poly[:, 0], poly[:, 1]
+        return 0.5 * abs(np.dot(x, np.roll(y, 1)) - np.dot(y, np.roll(x, 1)))
+
+    # an ellipse's area grows with the square of its size (the drawn 64-gon is inscribed the same way)
+    drawn, own = area(scr.outline_of(cur)), area(np.asarray(cur.outline_hz(64)))
+    assert drawn / own == pytest.approx((1.0 / cur.hit_size_sd) ** 2, rel=1e-9)
+    # a vowel 1.4 SD from the centre: inside the set's region (1.5 SD) but not the task's (1.0 SD)
+    from livevowel.dsp.types import Frame
+
+    f1, f2 = (float(v) for v in cur.outline_hz(4, size_sd=1.4)[0])
+    assert cur.contains(f1, f2)
+    scr.feed([Frame(100.0 + 0.01 * k, True, 120.0, f1, f2, 3000.0, 60.0, 90.0, 150.0, -20.0, 1.0)
+              for k in range(30)], now_s=1e6)
+    assert [log[4] for log in list(scr.dot_log)[-30:]] == [False] * 30
+    assert scr.counter.hold_progress == 0.0

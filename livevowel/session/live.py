@@ -13,12 +13,17 @@ next, previous, update, label). A drill provides both:
   the screen's header). The screen's next/previous keys become the coach's
   *next* and *repeat*; :meth:`DrillController.override_last` and
   :meth:`DrillController.skip_block` are there for keys the screen may bind.
+  It also gives the screen the prompt's task -- the hit size and hold the
+  attempt is judged at (after any adaptive change) -- so the region drawn is
+  the one judged, and the block's recorded counts for the header; the
+  screen's pulse and tone follow the recorded results (:meth:`take_events`).
 """
 
 from __future__ import annotations
 
 from typing import Any, Sequence
 
+from livevowel.feedback import HitEvent, Tally
 from livevowel.session.runner import DrillSession, Outcome
 
 
@@ -89,15 +94,55 @@ class DrillController:
         self._index = 0
         self.version = 0
         self.label = ""
+        self._seen = 0
+        self._events: list[HitEvent] = []
         self.update(0.0)
 
     @property
     def current(self) -> Any:
         return self.targets[self._index]
 
-    def update(self, time_s: float) -> None:
-        """Follow the prompt; refresh the label."""
+    @property
+    def hit_size_sd(self) -> float | None:
+        """The prompt's hit size (SD units; None: the target's own), as judged."""
+        p = self.session.prompt
+        return None if p is None else p.hit_size_sd
+
+    @property
+    def hold_s(self) -> float | None:
+        """The prompt's hold, seconds (0: the attempt is judged without one)."""
+        p = self.session.prompt
+        return None if p is None else p.hold_s
+
+    @property
+    def tally(self) -> Tally:
+        """Recorded hits and trials of the current block (after the drill: of the session)."""
         s = self.session
+        if s.done or s.prompt is None:
+            summ = s.recorder.store.summary(s.recorder.session_id)
+            return Tally(summ.hits, summ.trials, 0, "session")
+        st = s.run.block
+        counted = st.counted()
+        streak = 0
+        for r in reversed(counted):
+            if not r.hit:
+                break
+            streak += 1
+        return Tally(sum(r.hit for r in counted), len(counted), streak, f"block {st.index + 1}")
+
+    def take_events(self) -> list[HitEvent]:
+        """Hits and misses recorded since the last call (oldest first)."""
+        out, self._events = self._events, []
+        return out
+
+    def update(self, time_s: float) -> None:
+        """Follow the prompt; refresh the label; note new recorded results."""
+        s = self.session
+        for o in s.outcomes[self._seen:]:
+            if o.trial is not None:
+                self._events.append(HitEvent("hit" if o.trial.hit else "miss", float(time_s),
+                                            o.judgement.target_id or o.trial.target, o.judgement.hit_size_sd))
+        self._seen = len(s.outcomes)
         p = s.prompt
         if p is not None:
             tid = s.target_set.get(p.target).id

@@ -161,13 +161,15 @@ class PracticeScreen:
         self.message = ""
         self._outlines = {t.id: np.asarray(t.outline_hz(64), dtype=float) for t in self.targets}
         self._centres = {t.id: (float(t.f1_hz), float(t.f2_hz)) for t in self.targets}
+        self._sized_outlines: dict[tuple[str, float], np.ndarray] = {}
+        self._by_id = {t.id: t for t in self.targets}
         self._trail: deque = deque()   # (time_s, f1_hz, f2_hz, stroke number)
         self._stroke = 0
         self._dot: Any = None          # newest reliable frame, or None
         self._last_frame: Any = None   # newest frame of any kind
         self._newest_t = -math.inf
         self._last_arrival = -math.inf
-        self._pulses: list[tuple[float, str]] = []
+        self._pulses: list[tuple[float, str, float | None]] = []   # (start, target id, size SD or None)
         self._hit_flash = -math.inf
         #: (time_s, f1_hz, f2_hz, current target id, inside) of every dot shown.
         self.dot_log: deque = deque(maxlen=500_000)
@@ -204,22 +206,33 @@ class PracticeScreen:
         if self.paused:
             self._dot = None
             return out
+        take = getattr(self.controller, "take_events", None)
         for fr in frames:
             self.frames_seen += 1
             t = float(fr.time_s)
             self.controller.update(t)
             cur = self.controller.current
+            size, hold = self.task()
+            if hold != self.counter.hold_s:
+                self.counter.hold_s = hold
             ok = self.reliable(fr)
-            inside = bool(ok and cur.contains(fr.f1_hz, fr.f2_hz))
+            if size is None:
+                inside = bool(ok and cur.contains(fr.f1_hz, fr.f2_hz))
+            else:
+                inside = bool(ok and cur.distance(fr.f1_hz, fr.f2_hz) <= size)
             ev = self.counter.update(t, present=ok, inside=inside, target_id=cur.id)
-            for e in ev:
+            judged = take() if take is not None else None
+            # a controller that judges attempts itself (a drill) decides what pulses and sounds
+            shown = ev if judged is None else judged
+            for e in shown:
                 self.events.append(e)
                 if e.kind == "hit":
-                    self._pulses.append((now_s, e.target_id))
+                    self._pulses.append((now_s, e.target_id, e.size_sd if e.size_sd is not None
+                                         else (size if e.target_id == cur.id else None)))
                     self._hit_flash = now_s
                     if self.on_hit is not None and self.tone_on:
                         self.on_hit(e)
-            out += ev
+            out += shown
             self._last_frame = fr
             self._newest_t = t
             if ok:
@@ -233,6 +246,32 @@ class PracticeScreen:
         while self._trail and self._trail[0][0] < horizon:
             self._trail.popleft()
         return out
+
+    def task(self) -> tuple[float | None, float]:
+        """``(hit_size_sd, hold_s)`` the current region is drawn and tested at:
+        the controller's (a drill's prompt, after adaptive changes) where it
+        gives them, else the target's own size (None) and the screen's hold."""
+        c = self.controller
+        size = getattr(c, "hit_size_sd", None)
+        hold = getattr(c, "hold_s", None)
+        return (None if size is None else float(size),
+                float(hold) if hold is not None and hold > 0 else float(self.options.hold_s))
+
+    def outline_of(self, target: Any) -> np.ndarray:
+        """(n, 2) outline in Hz of ``target``: the current one at the task's size."""
+        return self.outline_at(target, self.task()[0] if target.id == self.controller.current.id else None)
+
+    def outline_at(self, target: Any, size: float | None) -> np.ndarray:
+        """(n, 2) outline in Hz of ``target`` at ``size`` SD (None: its own hit size)."""
+        if size is None or size == target.hit_size_sd:
+            return self._outlines[target.id]
+        key = (target.id, size)
+        got = self._sized_outlines.get(key)
+        if got is None:
+            if len(self._sized_outlines) > 64:
+                self._sized_outlines.clear()
+            got = self._sized_outlines[key] = np.asarray(target.outline_hz(64, size_sd=size), dtype=float)
+        return got
 
     def set_health(self, health: Any) -> None:
         """The input's state (:class:`livevowel.audio.InputHealth` or None)."""
@@ -381,7 +420,7 @@ class PracticeScreen:
             pts = plane.outline_to_pixels(self._outlines[t.id])
             D.translucent_polygon(s, pts, th.region_line, th.region_fill_alpha)
             D.outline(s, pts, th.region_line, max(1, int(round(1.5 * th.line_scale * u))))
-        pts = plane.outline_to_pixels(self._outlines[cur.id])
+        pts = plane.outline_to_pixels(self.outline_of(cur))
         D.translucent_polygon(s, pts, th.current, th.current_fill_alpha)
         D.outline(s, pts, th.current, max(2, int(round(4 * th.line_scale * u))))
         for t in self.targets:
@@ -426,7 +465,8 @@ class PracticeScreen:
         th = self.theme
         size = surface.get_size()
         key = (size, self.theme_name, self.large_text, self.units, self.controller.version,
-               self.controller.current.id, self.fonts.has_ipa, getattr(self.controller, "label", ""))
+               self.controller.current.id, self.fonts.has_ipa, getattr(self.controller, "label", ""),
+               self.task()[0])
         if self._static is None or key != self._static_key:
             self._build_static(size)
             self._static_key = key
@@ -436,15 +476,15 @@ class PracticeScreen:
         surface.set_clip(pr)
         # hit pulses: an expanding ring from the region centre
         keep = []
-        for start, tid in self._pulses:
+        for start, tid, psize in self._pulses:
             age = (now_s - start) / PULSE_S
-            if 0 <= age < 1 and tid in self._centres:
+            if 0 <= age < 1 and tid in self._by_id:
                 cx, cy = plane.to_pixel(*self._centres[tid])
-                pts = plane.outline_to_pixels(self._outlines[tid])
+                pts = plane.outline_to_pixels(self.outline_at(self._by_id[tid], psize))
                 D.outline(surface, pts, th.hit, max(3, int(5 * u * (1 - age)) + 1))
                 D.ring(surface, cx, cy, (20 + 110 * age) * u, th.hit, max(2, int(6 * u * (1 - age))),
                        int(230 * (1 - age)))
-                keep.append((start, tid))
+                keep.append((start, tid, psize))
         self._pulses = keep
         # the dot
         visible = self.dot_visible(now_s)
@@ -475,19 +515,33 @@ class PracticeScreen:
 
     def _draw_counters(self, surface, now_s: float) -> None:
         th, F, lay, u = self.theme, self.fonts, self._layout, self._layout.u
-        c = self.counter
+        hits, tries, streak, scope = self.counts()
         flash = now_s - self._hit_flash < HIT_FLASH_S
         x = lay.width - 26 * u
         cy = lay.header.centery
-        r = D.blit_text(surface, F.text(f"{c.streak}", int(40 * u), th.hit if flash else th.text, bold=True),
+        r = D.blit_text(surface, F.text(f"{streak}", int(40 * u), th.hit if flash else th.text, bold=True),
                         x, cy + 4 * u, "midright")
         r = D.blit_text(surface, F.text("streak", int(17 * u), th.muted_text), r.left - 10 * u, cy + 4 * u,
                         "midright")
-        r = D.blit_text(surface, F.text(f"of {c.attempts}", int(24 * u), th.text), r.left - 34 * u, cy + 4 * u,
+        r = D.blit_text(surface, F.text(f"of {tries}", int(24 * u), th.text), r.left - 34 * u, cy + 4 * u,
                         "midright")
-        r = D.blit_text(surface, F.text(f"{c.hits}", int(40 * u), th.hit if flash else th.text, bold=True),
+        r = D.blit_text(surface, F.text(f"{hits}", int(40 * u), th.hit if flash else th.text, bold=True),
                         r.left - 10 * u, cy + 4 * u, "midright")
-        D.blit_text(surface, F.text("hits", int(17 * u), th.muted_text), r.left - 10 * u, cy + 4 * u, "midright")
+        r = D.blit_text(surface, F.text("hits", int(17 * u), th.muted_text), r.left - 10 * u, cy + 4 * u,
+                        "midright")
+        if scope:
+            D.blit_text(surface, F.text(f"{scope} ·", int(17 * u), th.muted_text), r.left - 8 * u, cy + 4 * u,
+                        "midright")
+
+    def counts(self) -> tuple[int, int, int, str]:
+        """``(hits, attempts, streak, scope)`` for the header: the controller's
+        recorded tally where it keeps one (a drill: the block's trials), else
+        the screen's own hold-based counts (scope "")."""
+        t = getattr(self.controller, "tally", None)
+        if t is not None:
+            return int(t.hits), int(t.trials), int(t.streak), str(t.scope)
+        c = self.counter
+        return c.hits, c.attempts, c.streak, ""
 
     def _draw_strip(self, surface, now_s: float) -> None:
         th, F, lay, u = self.theme, self.fonts, self._layout, self._layout.u
