@@ -58,7 +58,10 @@ class Outcome:
         """One line for a log: number, time, prompt, result, measures."""
         a, j = self.attempt, self.judgement
         where = f"{a.start_s:7.2f}-{a.end_s:6.2f} s"
-        what = f"{self.prompt.item.prompt!r}->{self.prompt.target}" if self.prompt else "(between prompts)"
+        if self.prompt is not None:
+            what = f"{self.prompt.item.prompt!r}->{self.prompt.target}"
+        else:   # free practice judges against the screen's target
+            what = f"->{j.target_id}" if j.target_id else "(between prompts)"
         if self.trial is not None:
             res = "HIT " if self.trial.hit else "miss"
             res += f" {j.closeness:3.0f}"
@@ -67,10 +70,12 @@ class Outcome:
         meas = (f"F1 {a.f1_hz:4.0f} F2 {a.f2_hz:4.0f} Hz" if math.isfinite(a.f1_hz) and math.isfinite(a.f2_hz)
                 else "F1/F2 not measured")
         near = f" sounded like {j.nearest_id}" if j.nearest_id else ""
-        if self.prompt is None:
+        if self.trial is not None:
+            note = "" if j.reason == "hit" else f" ({j.reason})"
+        elif self.prompt is None and j.target_id is None and "target changed" not in j.reason:
             note = " (not counted)"
         else:
-            note = "" if self.trial is not None and j.reason == "hit" else f" ({j.reason})"
+            note = f" ({j.reason})"
         return f"#{self.number:<3} {where}  {what:<22} {res}  {meas}{near}{note}"
 
 
@@ -141,12 +146,20 @@ class DrillSession:
                  clip_pre_s: float = CLIP_PRE_S, clip_post_s: float = CLIP_POST_S,
                  on_outcome: Callable[[Outcome], None] | None = None) -> None:
         self.drill = drill
+        self.run = DrillRun(drill, mode=mode, pause_s=pause_s, default_hit_size_sd=target_set.default_hit_size_sd,
+                            seed=seed, start_s=start_s)
+        self._init_feed(target_set, recorder, attempt_settings=attempt_settings, start_s=start_s,
+                        speaker_space=speaker_space, clip_pre_s=clip_pre_s, clip_post_s=clip_post_s,
+                        on_outcome=on_outcome)
+
+    def _init_feed(self, target_set, recorder: SessionRecorder, *, attempt_settings: AttemptSettings,
+                   start_s: float, speaker_space: bool, clip_pre_s: float, clip_post_s: float,
+                   on_outcome: Callable[[Outcome], None] | None) -> None:
+        """What every session fed from the stream keeps (``self.run`` is set before)."""
         self.target_set = target_set
         self.recorder = recorder
         self.settings = attempt_settings
         self.speaker_space = speaker_space
-        self.run = DrillRun(drill, mode=mode, pause_s=pause_s, default_hit_size_sd=target_set.default_hit_size_sd,
-                            seed=seed, start_s=start_s)
         self.segmenter = AttemptSegmenter(settings=attempt_settings)
         self.clip_pre_s = float(clip_pre_s)
         self.clip_post_s = float(clip_post_s)

@@ -555,6 +555,8 @@ class SessionSummary:
             t = per_t.setdefault(str(r.get("target_id")), [0, 0])
             t[0] += 1
             t[1] += int(bool(res))
+            if r.get("block_id") is None:      # free practice: no blocks
+                continue
             bkey = f"{(r.get('block_index') or 0) + 1}:{r.get('block_id')}"
             b = per_b.setdefault(bkey, [0, 0])
             b[0] += 1

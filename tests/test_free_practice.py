@@ -1,0 +1,120 @@
+"""Free practice kept in the session record (``practice --record`` / ``--speaker``).
+
+The speech is the project's Klatt (1980)-style synthesiser speaking steady
+vowels at the centres of the ``gae-men`` set (Hillenbrand et al. 1995 men's
+means, as shipped), so each attempt's right answer is known: a FLEECE vowel
+said for the FLEECE target is a hit, a KIT vowel said for it is a miss that
+sounds like KIT.
+"""
+
+import pytest
+import soundfile as sf
+
+from livevowel.cli import main
+from livevowel.session.store import Store
+
+RATE = 16000
+
+
+def render(path, said, *, lead_s=1.2, vowel_s=0.35, gap_s=0.9):
+    from livevowel.dsp.synth import Schedule, Segment, render as synth_render
+    from livevowel.targets import load_target_set
+
+    ts = load_target_set("gae-men")
+    segs = [Segment(duration_s=lead_s, kind="silent")]
+    for vid in said:
+        v = ts.get(vid)
+        segs += [Segment(duration_s=vowel_s, kind="voiced", f0_start_hz=120.0, f0_end_hz=105.0,
+                         formants_hz=(v.f1_hz, v.f2_hz, v.f3_hz)),
+                 Segment(duration_s=gap_s, kind="silent")]
+    x, _ = synth_render(Schedule(tuple(segs), voice="man"), rate_hz=RATE, seed=3, peak_dbfs=-6.0)
+    sf.write(path, x, RATE, subtype="FLOAT")
+    return x
+
+
+@pytest.fixture(scope="module")
+def take(tmp_path_factory):
+    p = tmp_path_factory.mktemp("free") / "take.wav"
+    render(p, ["fleece", "kit", "fleece"])
+    return p
+
+
+def test_recorded_free_practice_judges_each_attempt_against_the_screen_target(take, tmp_path, capsys, monkeypatch):
+    from livevowel.ui import screen as screen_mod
+
+    made = []
+    orig = screen_mod.PracticeScreen.__init__
+
+    def init(self, *a, **kw):
+        orig(self, *a, **kw)
+        made.append(self)
+
+    monkeypatch.setattr(screen_mod.PracticeScreen, "__init__", init)
+    data = tmp_path / "d"
+    rc = main(["practice", "--targets", "gae-men", "--target", "fleece", "--speaker", "S21", "--headless",
+               "--screenshot", str(tmp_path / "free.png"), "--source", f"file:{take}", "--pace", "0",
+               "--data", str(data), "--no-tone", "--size", "640x400", "--note", "warm-up"])
+    out = capsys.readouterr().out
+    assert rc == 0 and (tmp_path / "free.png").exists()
+    s = Store.open(data)
+    sess = s.session(1)
+    assert (sess["mode"], sess["speaker_id"], sess["target_set"], sess["drill"]) == ("free", "S21", "gae-men", None)
+    rows = s.attempts(1)
+    assert [(r["target_id"], r["auto_hit"], r["trial"], r["nearest_id"]) for r in rows] == [
+        ("fleece", 1, 1, "fleece"), ("fleece", 0, 2, "kit"), ("fleece", 1, 3, "fleece")]
+    assert all(r["clip"] for r in rows) and all(r["hold_s"] == pytest.approx(0.25) for r in rows)
+    summ = s.summary(1)
+    assert (summ.trials, summ.hits, summ.per_block) == (3, 2, ())
+    assert [(t.key, t.trials, t.hits) for t in summ.per_target] == [("fleece", 3, 2)]
+    assert "trials 3, hits 2" in out and "->fleece" in out and "sounded like kit" in out
+    (scr,) = made
+    # the header shows the record, and the pulses follow the recorded hits
+    assert scr.counts() == (2, 3, 1, "recorded")
+    assert [(e.kind, e.target_id) for e in scr.events] == [("hit", "fleece"), ("miss", "fleece"), ("hit", "fleece")]
+    # the sessions command lists it like a drill session
+    assert main(["sessions", "--data", str(data)]) == 0
+    assert "S21" in capsys.readouterr().out
+
+
+def test_unrecorded_free_practice_writes_nothing(take, tmp_path, capsys, monkeypatch):
+    monkeypatch.setenv("LIVEVOWEL_DATA", str(tmp_path / "nowhere"))
+    rc = main(["practice", "--targets", "gae-men", "--target", "fleece", "--headless", "--source", f"file:{take}",
+               "--pace", "0", "--no-tone"])
+    assert rc == 0 and "hits in 3 attempts" in capsys.readouterr().out
+    assert not (tmp_path / "nowhere").exists()
+
+
+def test_no_save_keeps_free_practice_in_memory(take, tmp_path, capsys):
+    rc = main(["practice", "--targets", "gae-men", "--target", "fleece", "--record", "--no-save", "--headless",
+               "--source", f"file:{take}", "--pace", "0", "--no-tone", "--data", str(tmp_path / "d")])
+    captured = capsys.readouterr()
+    assert rc == 0 and "trials 3, hits 2" in captured.out and "NOT SAVED" in captured.err
+    assert not (tmp_path / "d").exists()
+
+
+def test_an_attempt_during_a_target_change_is_saved_but_not_judged(tmp_path):
+    from livevowel.dsp.engine import AnalysisSettings, analyze
+    from livevowel.session.free import FreeSession
+    from livevowel.session.store import SessionRecorder
+    from livevowel.targets import load_target_set
+
+    x = render(tmp_path / "one.wav", ["fleece"], lead_s=0.3, gap_s=0.6)
+    frames = list(analyze(x, RATE, settings=AnalysisSettings(voice="adult_male"), causal=True).frames)
+    ts = load_target_set("gae-men")
+    for switch_at, expect in ((None, (True, "hit")), (0.45, (None, "not judged: the target changed during the attempt"))):
+        current = {"id": "fleece"}
+        rec = SessionRecorder(memory_only=True)
+        rec.start(mode="free", target_set=ts.id)
+        sess = FreeSession(ts, rec, lambda: current["id"], hold_s=0.25)
+        outs = []
+        for k in range(0, len(frames), 4):            # 40 ms batches, as the live consumer drains them
+            batch = frames[k:k + 4]
+            if switch_at is not None and batch[0].time_s >= switch_at:
+                current["id"] = "kit"
+            outs += sess.add_frames(batch)
+        outs += sess.end_of_input()
+        (oc,) = outs
+        assert (oc.judgement.hit, oc.judgement.reason) == expect
+        assert (oc.trial is None) == (switch_at is not None)
+        sess.finish()
+        assert len(rec.store.attempts(rec.session_id)) == 1      # saved either way
