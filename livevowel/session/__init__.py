@@ -7,4 +7,5 @@
 * :mod:`livevowel.session.runner` -- :class:`DrillSession` (segment, judge, count, record)
   and a whole drill run without a screen.
 * :mod:`livevowel.session.live` -- a drill on the practice screen (controller and pipeline adapter).
+* :mod:`livevowel.session.free` -- free practice kept in the record (session and screen controller).
 """
