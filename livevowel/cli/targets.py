@@ -33,7 +33,9 @@ examples:
   livevowel targets show gae-men --profile me.yaml --scale bark
   livevowel targets check my-accent.yaml
   livevowel targets calibrate s07.yaml --speaker S07 --group adult_female \\
-      --set gae-men --token i=437,2761 --token ɑ=936,1551 --token u=459,1105"""
+      --set gae-men --token i=437,2761 --token ɑ=936,1551 --token u=459,1105
+  livevowel targets calibrate s07.yaml --speaker S07 --group adult_female \\
+      --set gae-men --listen                       # say the vowels when asked"""
 
 
 def add_targets_option(parser: argparse.ArgumentParser, *, default: str | None = None,
@@ -73,10 +75,25 @@ def configure(parser: argparse.ArgumentParser) -> None:
                     "existing one, and print the transform. Give at least /i/, /a/ or /ɑ/, and /u/;\n"
                     "with five or more different vowels the transform has one factor per formant.\n"
                     "Each --token is VOWEL=F1,F2[,F3] where VOWEL is a target id, IPA symbol or\n"
-                    "lexical set of the reference set. The file is written atomically.")
+                    "lexical set of the reference set. The file is written atomically.\n\n"
+                    "With --listen the vowels are measured instead: each is asked for in turn\n"
+                    "(--takes times; by default the set's /i/, /a/ or /ɑ/, and /u/), said into the\n"
+                    "microphone (or read from --source file:PATH), measured on its steady part as\n"
+                    "in drills, and asked again when the take was too short, clipped or too quiet.\n"
+                    "Say each vowel on its own, steadily, for about half a second. Stop if\n"
+                    "speaking hurts or your voice turns hoarse.")
     p.add_argument("profile", metavar="PROFILE", help="profile YAML file (created when missing)")
-    p.add_argument("--token", metavar="VOWEL=F1,F2[,F3]", action="append", required=True,
+    p.add_argument("--token", metavar="VOWEL=F1,F2[,F3]", action="append",
                    help="one measured vowel in Hz (repeat for each)")
+    p.add_argument("--listen", action="store_true", help="measure the vowels from the input, prompting each")
+    p.add_argument("--vowels", metavar="V,V,...",
+                   help="with --listen: the vowels to ask for (ids, IPA or keywords; default the corners)")
+    p.add_argument("--takes", metavar="N", type=int, default=2, help="with --listen: takes per vowel (default 2)")
+    from livevowel.audio.options import add_source_options
+    from livevowel.cli import add_config_option
+
+    add_source_options(p)
+    add_config_option(p)
     add_targets_option(p, flag="--set")
     p.add_argument("--speaker", metavar="ID", help="pseudonymous speaker code (new profile)")
     p.add_argument("--group", choices=("adult_male", "adult_female", "child", "any"),
@@ -204,10 +221,17 @@ def _calibrate(args: argparse.Namespace) -> int:
     from livevowel.errors import UserError
     from livevowel.profile import SpeakerProfile, load_profile
 
-    tokens = [_parse_token(t) for t in args.token]
-    now = datetime.datetime.now().astimezone().isoformat(timespec="seconds")
-    tokens = [replace(t, time=now) for t in tokens]
+    if bool(args.token) == bool(args.listen):
+        raise UserError("give the measured vowels with --token VOWEL=F1,F2 ..., or --listen to measure them")
     path = Path(args.profile)
+    if not path.exists() and not (args.speaker and args.group and args.set):
+        raise UserError(f"{path} does not exist yet: give --speaker, --group and --set to create it")
+    now = datetime.datetime.now().astimezone().isoformat(timespec="seconds")
+    if args.listen:
+        tokens = _listen_tokens(args, path)
+    else:
+        tokens = [_parse_token(t) for t in args.token]
+    tokens = [replace(t, time=now) for t in tokens]
     if path.exists():
         prof = load_profile(path)
         if args.speaker and args.speaker != prof.speaker_id:
@@ -218,8 +242,6 @@ def _calibrate(args: argparse.Namespace) -> int:
         prof = prof.with_tokens(tokens, args.set)
         verb = "updated"
     else:
-        if not (args.speaker and args.group and args.set):
-            raise UserError(f"{path} does not exist yet: give --speaker, --group and --set to create it")
         prof = SpeakerProfile.calibrate(args.speaker, tokens, args.set, voice_group=args.group,
                                         method=args.method or "auto")
         verb = "created"
@@ -230,6 +252,58 @@ def _calibrate(args: argparse.Namespace) -> int:
           f"F1 x{tr.factors[0]:.3f}, F2 x{tr.factors[1]:.3f}, F3 x{tr.factors[2]:.3f} "
           f"from {', '.join(tr.vowels)}")
     return 0
+
+
+def _listen_tokens(args: argparse.Namespace, path) -> list:
+    """``calibrate --listen``: prompt each vowel on the terminal, measure it from the input."""
+    import sys
+
+    from livevowel import CAUTION, config
+    from livevowel.audio.options import source_from_args
+    from livevowel.audio.pipeline import LiveSettings
+    from livevowel.dsp.engine import AnalysisSettings
+    from livevowel.errors import UserError
+    from livevowel.session.calibration import run_calibration
+    from livevowel.targets import load_target_set
+
+    ref = args.set
+    if ref is None:
+        from livevowel.profile import load_profile
+
+        ref = load_profile(path).transform.reference_set
+    ts = load_target_set(ref)
+    settings = config.load(config_file=getattr(args, "config", None))
+    if args.group in ("adult_male", "adult_female", "child") and settings.values["analysis"].get("voice") == "auto":
+        settings = config.load(config_file=getattr(args, "config", None), overrides={"analysis": {"voice": args.group}})
+    live = LiveSettings.from_config(settings)
+    source = source_from_args(args, live=live)
+    vowels = [v.strip() for v in args.vowels.split(",") if v.strip()] if args.vowels else None
+    if (args.source or "mic") == "mic":
+        print(CAUTION, file=sys.stderr)
+
+    def prompt(target, take) -> None:
+        word = target.words[0] if target.words else target.id
+        label = f"/{target.ipa}/" if target.ipa else target.id
+        print(f"say {label} as in \u201c{word}\u201d ({target.lexical_set or target.id}), take {take} of "
+              f"{args.takes} ...", flush=True)
+
+    def took(oc, take) -> None:
+        if take is None:
+            flags = ", ".join(oc.attempt.flags) or oc.judgement.reason
+            print(f"  not used ({flags}); again, please", flush=True)
+        else:
+            f3 = f" F3 {take.f3_hz:.0f}" if take.f3_hz is not None else ""
+            f0 = f" (F0 {take.f0_hz:.0f})" if take.f0_hz is not None else ""
+            print(f"  F1 {take.f1_hz:.0f} F2 {take.f2_hz:.0f}{f3} Hz{f0}", flush=True)
+
+    takes = run_calibration(ts, source, vowels=vowels, takes=args.takes,
+                            analysis=AnalysisSettings.from_config(settings), live=live, on_prompt=prompt,
+                            on_take=took)
+    want = len(vowels or []) or 3
+    if len({t.vowel for t in takes}) < want:
+        raise UserError(f"the input ended after {len(takes)} usable takes, before every vowel was measured; "
+                        f"{path} is unchanged")
+    return [t.token() for t in takes]
 
 
 def _table(header, rows, *, right=frozenset()) -> None:

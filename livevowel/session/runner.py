@@ -331,7 +331,8 @@ def feed(session: DrillSession, pipe) -> list[Outcome]:
 
 
 def run_headless(session: DrillSession, source, *, analysis=None, live=None, poll_s: float = 0.005,
-                 timeout_s: float | None = None, warn: Callable[[str], None] | None = None) -> SessionSummary:
+                 timeout_s: float | None = None, warn: Callable[[str], None] | None = None,
+                 on_poll: Callable[[], None] | None = None) -> SessionSummary:
     """Run ``session`` from ``source`` through the live path until the drill or the input ends.
 
     Parameters
@@ -347,6 +348,9 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
         Give up (stop the source) after this much wall-clock time.
     warn : callable, optional
         Called with a one-line message when the live path dropped input or results.
+    on_poll : callable, optional
+        Called before the start and after each hand-over of new frames (e.g.
+        to show a new prompt).
 
     Returns
     -------
@@ -354,11 +358,15 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
     """
     pipe = tapped_pipeline(source, analysis=analysis, live=live)
     t0 = time.monotonic()
+    if on_poll is not None:
+        on_poll()
     pipe.start()
     try:
         while True:
             finished = pipe.done
             feed(session, pipe)
+            if on_poll is not None:
+                on_poll()
             if session.done or finished:
                 break
             if timeout_s is not None and time.monotonic() - t0 > timeout_s:
