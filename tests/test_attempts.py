@@ -77,6 +77,29 @@ def test_short_dip_within_hangover_does_not_split():
     assert len(atts) == 2
 
 
+def test_a_jump_in_frame_times_splits_the_attempt():
+    # voiced frames on both sides of a pause (no frames at all for 1.2 s, as a paused input gives)
+    before = frames([(0.3, True, 300, 2300)])
+    after = frames([(0.3, True, 400, 2000), (0.3, False, 0, 0)], t0=1.5)
+    _, atts = run_all(before + after)
+    assert len(atts) == 2
+    assert atts[0].end_s == pytest.approx(0.3) and atts[1].start_s == pytest.approx(1.5)
+    assert (atts[0].f1_hz, atts[1].f1_hz) == (300, 400)
+    # a gap of one missing frame is not a jump
+    fr = frames([(0.3, True, 300, 2300), (0.3, False, 0, 0)])
+    _, atts = run_all(fr[:15] + fr[16:])
+    assert len(atts) == 1
+
+
+def test_stopped_input_flags_the_open_attempt():
+    seg = AttemptSegmenter()
+    for f in frames([(0.3, True, 300, 2300)]):
+        assert seg.push(f) == []
+    (span,) = seg.flush(stopped=True)
+    att = measure_span(span)
+    assert att.flags == ("stopped",) and not att.usable
+
+
 def test_too_short_is_kept_and_flagged_and_blips_counted():
     fr = frames([(0.1, False, 0, 0), (0.08, True, 300, 2300), (0.3, False, 0, 0), (0.02, True, 300, 2300),
                  (0.3, False, 0, 0)])

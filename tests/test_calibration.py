@@ -60,17 +60,62 @@ def test_listen_measures_each_vowel_and_fits_the_known_factor(tmp_path, capsys):
     assert tr["factors"]["f1"] == tr["factors"]["f2"] == tr["factors"]["f3"]
 
 
+def test_a_take_of_the_wrong_vowel_is_refused_and_asked_again(tmp_path, capsys):
+    take = tmp_path / "wrong.wav"
+    # LOT said for the second FLEECE take: no speaker's /i/ sounds like that, so it is refused
+    render(take, [("fleece", 0.5), ("lot", 0.5), ("fleece", 0.5), ("lot", 0.5), ("lot", 0.5),
+                  ("goose", 0.5), ("goose", 0.5)])
+    prof = tmp_path / "s34.yaml"
+    rc = main(["targets", "calibrate", str(prof), "--speaker", "S34", "--group", "adult_female", "--set", "gae-men",
+               "--listen", "--source", f"file:{take}", "--pace", "0"])
+    out = capsys.readouterr().out
+    assert rc == 0, out
+    assert "that sounded like lot, not FLEECE" in out and out.count("again, please") == 1
+    data = yaml.safe_load(prof.read_text())
+    assert [t["vowel"] for t in data["tokens"]] == ["fleece", "fleece", "lot", "lot", "goose", "goose"]
+    assert data["transform"]["factors"]["f1"] == pytest.approx(FACTOR, rel=0.03)
+
+
+def test_plausibility_allows_any_speaker_size_but_not_another_vowel():
+    from livevowel.session.calibration import plausible_as
+    from livevowel.targets import load_target_set
+
+    ts = load_target_set("gae-men")
+    i, a = ts.get("fleece"), ts.get("lot")
+    # Peterson & Barney (1952) children's /i/ (from memory): 370, 3200 Hz -- far from the men's /i/, but an /i/
+    assert plausible_as(ts, "fleece", 370.0, 3200.0)[0]
+    for k in (0.7, 1.0, 1.5):                       # the men's own /i/ scaled within the speaker range
+        assert plausible_as(ts, "fleece", i.f1_hz * k, i.f2_hz * k)[0]
+    assert plausible_as(ts, "fleece", a.f1_hz, a.f2_hz) == (False, "lot")
+
+
 def test_listen_with_too_little_input_leaves_the_profile_alone(tmp_path, capsys):
     take = tmp_path / "short.wav"
-    render(take, [("fleece", 0.5)])
+    render(take, [("fleece", 0.5), ("fleece", 0.5), ("lot", 0.5), ("lot", 0.5), ("goose", 0.5)])
     prof = tmp_path / "s32.yaml"
     rc = main(["targets", "calibrate", str(prof), "--speaker", "S32", "--group", "adult_female", "--set", "gae-men",
-               "--listen", "--takes", "1", "--source", f"file:{take}", "--pace", "0"])
+               "--listen", "--source", f"file:{take}", "--pace", "0"])
     err = capsys.readouterr().err
-    assert rc == 2 and "before every vowel was measured" in err and not prof.exists()
+    assert rc == 2 and "goose: 1 of 2" in err and not prof.exists()
+
+
+@pytest.mark.parametrize("extra,message", [
+    (["--vowels", "i,fleece,ɑ,u"], "names fleece twice"),
+    (["--vowels", "fleece,lot"], "missing /u/"),
+    (["--vowels", "i,ɑ,u", "--method", "nearey-per-formant"], "at least 5 different vowels"),
+])
+def test_listen_plans_are_checked_before_anyone_speaks(tmp_path, capsys, extra, message):
+    # the input does not exist: the plan must be refused before it is opened
+    rc = main(["targets", "calibrate", str(tmp_path / "p.yaml"), "--speaker", "S35", "--group", "adult_female",
+               "--set", "gae-men", "--listen", "--source", f"file:{tmp_path / 'none.wav'}"] + extra)
+    err = capsys.readouterr().err
+    assert rc == 2 and message in err and "none.wav" not in err
 
 
 def test_token_or_listen_is_needed(tmp_path, capsys):
     rc = main(["targets", "calibrate", str(tmp_path / "p.yaml"), "--speaker", "S33", "--group", "child",
                "--set", "gae-men"])
     assert rc == 2 and "--listen" in capsys.readouterr().err
+    rc = main(["targets", "calibrate", str(tmp_path / "p.yaml"), "--speaker", "S33", "--group", "child",
+               "--set", "gae-men", "--token", "i=370,3200", "--takes", "3"])
+    assert rc == 2 and "--takes goes with --listen" in capsys.readouterr().err

@@ -1,4 +1,4 @@
-"""Free practice kept in the session record (``practice --record`` / ``--speaker``).
+"""Free practice kept in the session record (``practice --save`` / ``--speaker``).
 
 The speech is the project's Klatt (1980)-style synthesiser speaking steady
 vowels at the centres of the ``gae-men`` set (Hillenbrand et al. 1995 men's
@@ -69,7 +69,7 @@ def test_recorded_free_practice_judges_each_attempt_against_the_screen_target(ta
     assert "trials 3, hits 2" in out and "->fleece" in out and "sounded like kit" in out
     (scr,) = made
     # the header shows the record, and the pulses follow the recorded hits
-    assert scr.counts() == (2, 3, 1, "recorded")
+    assert scr.counts() == (2, 3, 1, "saved")
     assert [(e.kind, e.target_id) for e in scr.events] == [("hit", "fleece"), ("miss", "fleece"), ("hit", "fleece")]
     # the sessions command lists it like a drill session
     assert main(["sessions", "--data", str(data)]) == 0
@@ -85,36 +85,110 @@ def test_unrecorded_free_practice_writes_nothing(take, tmp_path, capsys, monkeyp
 
 
 def test_no_save_keeps_free_practice_in_memory(take, tmp_path, capsys):
-    rc = main(["practice", "--targets", "gae-men", "--target", "fleece", "--record", "--no-save", "--headless",
+    rc = main(["practice", "--targets", "gae-men", "--target", "fleece", "--save", "--no-save", "--headless",
                "--source", f"file:{take}", "--pace", "0", "--no-tone", "--data", str(tmp_path / "d")])
     captured = capsys.readouterr()
     assert rc == 0 and "trials 3, hits 2" in captured.out and "NOT SAVED" in captured.err
     assert not (tmp_path / "d").exists()
 
 
-def test_an_attempt_during_a_target_change_is_saved_but_not_judged(tmp_path):
+@pytest.mark.parametrize("switch_at,expect", [
+    (None, ("fleece", True, "hit")),
+    # during the vowel (0.3-0.65 s): saved, not judged
+    (0.45, (None, None, "not judged: the target changed during the attempt")),
+    # after the vowel ended but before the attempt closed (hangover): judged against the target it was said for
+    (0.72, ("fleece", True, "hit")),
+])
+def test_the_target_while_the_attempt_lasted_is_the_one_judged(tmp_path, switch_at, expect):
     from livevowel.dsp.engine import AnalysisSettings, analyze
     from livevowel.session.free import FreeSession
     from livevowel.session.store import SessionRecorder
     from livevowel.targets import load_target_set
 
-    x = render(tmp_path / "one.wav", ["fleece"], lead_s=0.3, gap_s=0.6)
+    x = render(tmp_path / "one.wav", ["fleece", "kit"], lead_s=0.3, gap_s=0.6)
     frames = list(analyze(x, RATE, settings=AnalysisSettings(voice="adult_male"), causal=True).frames)
     ts = load_target_set("gae-men")
-    for switch_at, expect in ((None, (True, "hit")), (0.45, (None, "not judged: the target changed during the attempt"))):
-        current = {"id": "fleece"}
+    current = {"id": "fleece"}
+    rec = SessionRecorder(memory_only=True)
+    rec.start(mode="free", target_set=ts.id)
+    sess = FreeSession(ts, rec, lambda: current["id"], hold_s=0.25)
+    outs = []
+    for k in range(0, len(frames), 4):            # 40 ms batches, as the live consumer drains them
+        batch = frames[k:k + 4]
+        if switch_at is not None and batch[0].time_s >= switch_at:
+            current["id"] = "kit"
+        outs += sess.add_frames(batch)
+    outs += sess.end_of_input()
+    first, second = outs
+    assert (first.judgement.target_id, first.judgement.hit, first.judgement.reason) == expect
+    assert (first.trial is None) == (expect[1] is None)
+    # the KIT vowel (1.25-1.6 s) is judged against the target current then
+    want = "kit" if switch_at is not None else "fleece"
+    assert (second.judgement.target_id, second.judgement.hit) == (want, want == "kit")
+    summ = sess.finish()
+    assert summ.attempts == 2 and len(rec.store.attempts(rec.session_id)) == 2      # saved either way
+
+
+def test_stopping_during_an_attempt_keeps_it_unjudged(tmp_path):
+    from livevowel.dsp.engine import AnalysisSettings, analyze
+    from livevowel.session.free import FreeSession
+    from livevowel.session.store import SessionRecorder
+    from livevowel.targets import load_target_set
+
+    x = render(tmp_path / "two.wav", ["fleece", "fleece"], lead_s=0.3, gap_s=0.6)
+    frames = list(analyze(x, RATE, settings=AnalysisSettings(voice="adult_male"), causal=True).frames)
+    ts = load_target_set("gae-men")
+    for stopped in (False, True):
         rec = SessionRecorder(memory_only=True)
         rec.start(mode="free", target_set=ts.id)
-        sess = FreeSession(ts, rec, lambda: current["id"], hold_s=0.25)
-        outs = []
-        for k in range(0, len(frames), 4):            # 40 ms batches, as the live consumer drains them
-            batch = frames[k:k + 4]
-            if switch_at is not None and batch[0].time_s >= switch_at:
-                current["id"] = "kit"
-            outs += sess.add_frames(batch)
-        outs += sess.end_of_input()
-        (oc,) = outs
-        assert (oc.judgement.hit, oc.judgement.reason) == expect
-        assert (oc.trial is None) == (switch_at is not None)
-        sess.finish()
-        assert len(rec.store.attempts(rec.session_id)) == 1      # saved either way
+        sess = FreeSession(ts, rec, lambda: "fleece", hold_s=0.25)
+        # the input stops at 1.45 s, inside the second vowel (1.25-1.6 s)
+        sess.add_frames([f for f in frames if f.time_s < 1.45])
+        summ = sess.finish(stopped=stopped)
+        rows = rec.store.attempts(rec.session_id)
+        assert [r["flags"] for r in rows] == ["", "stopped" if stopped else ""]
+        assert summ.trials == (1 if stopped else 2) and rows[0]["auto_hit"] == 1
+
+
+def test_the_loop_tells_an_ended_input_from_a_stopped_one(take):
+    from livevowel.audio.paced import PacedFileSource
+    from livevowel.ui.app import run_practice
+    from livevowel.ui.screen import ScreenOptions
+
+    from livevowel import config
+
+    settings = config.load(config_file=None)
+    for seconds, ended in ((None, True), (1.0, False)):
+        _, res = run_practice(settings=settings, options=ScreenOptions(tone=False), targets="gae-men",
+                              source=PacedFileSource(take, pace=0.0), headless=True, seconds=seconds, pace=0.0)
+        assert res.input_ended is ended
+
+
+def test_options_that_only_drills_take_are_refused(take, tmp_path, capsys):
+    for extra in (["--coach"], ["--seed", "3"], ["--pause", "1"]):
+        rc = main(["practice", "--targets", "gae-men", "--save", "--headless", "--source", f"file:{take}",
+                   "--data", str(tmp_path / "d")] + extra)
+        assert rc == 2 and "belongs to drills" in capsys.readouterr().err
+    # a bad target is refused before the record is opened: no data folder is made
+    rc = main(["practice", "--targets", "gae-men", "--target", "zzz", "--save", "--headless", "--source",
+               f"file:{take}", "--data", str(tmp_path / "d")])
+    assert rc == 2 and not (tmp_path / "d").exists()
+
+
+def test_no_save_still_maps_with_the_profile_stored_with_the_speaker(take, tmp_path, capsys):
+    from livevowel.profile import CalibrationToken, SpeakerProfile
+    from livevowel.targets import load_target_set
+
+    ts = load_target_set("gae-men")
+    tokens = [CalibrationToken(v, ts.get(v).f1_hz * 1.1, ts.get(v).f2_hz * 1.1) for v in ("fleece", "lot", "goose")]
+    prof = SpeakerProfile.calibrate("S22", tokens, ts, voice_group="adult_male", method="nearey-shared")
+    path = prof.save(tmp_path / "s22.yaml")
+    data = tmp_path / "d"
+    base = ["practice", "--targets", "gae-men", "--target", "fleece", "--headless", "--source", f"file:{take}",
+            "--pace", "0", "--no-tone", "--data", str(data), "--quiet"]
+    assert main(base + ["--profile", str(path)]) == 0          # stores the profile with the speaker
+    capsys.readouterr()
+    assert main(base + ["--speaker", "S22", "--no-save"]) == 0
+    cap = capsys.readouterr()
+    assert "profile stored in the record" in cap.err and "NOT SAVED" in cap.err
+    assert [s["speaker_id"] for s in Store.open(data).sessions()] == ["S22"]     # nothing more written

@@ -35,10 +35,14 @@ FALLBACK_VOWELS = (
 )
 
 
-def add_source_options(parser: argparse.ArgumentParser) -> None:
-    """Add --source, --device, --channel and --pace to a command's parser."""
+def add_source_options(parser: argparse.ArgumentParser, *, source_default: str | None = "mic") -> None:
+    """Add --source, --device, --channel and --pace to a command's parser.
+
+    ``source_default=None`` leaves ``--source`` unset when not given (for a
+    command that checks whether input options were given at all; "mic" then
+    is the caller's default)."""
     g = parser.add_argument_group("input")
-    g.add_argument("--source", metavar="S", default="mic", help=SOURCE_HELP)
+    g.add_argument("--source", metavar="S", default=source_default, help=SOURCE_HELP)
     g.add_argument("--device", metavar="D",
                    help="input device: an index or part of a name from `livevowel devices` (default: the system default)")
     g.add_argument("--channel", metavar="N", type=int,

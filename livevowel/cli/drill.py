@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import argparse
 import sys
+from dataclasses import dataclass
+from typing import Any
 
 NAME = "drill"
 SUMMARY = "run a drill without a screen: prompts, attempts, judgements, the session record"
@@ -112,23 +114,40 @@ def drill_and_set(args: argparse.Namespace):
     return drill, ts
 
 
-def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
-    """Load drill, set, profile and settings; open the record. Returns (session, recorder, extras)."""
-    from livevowel import config
+@dataclass
+class RecordSetup:
+    """The speaker, profile and open session record of a run (before ``recorder.start``)."""
+
+    recorder: Any
+    speaker: str | None
+    profile: Any
+    profile_ref: str | None
+    target_set: Any           # the set as judged: mapped through the profile when there is one
+    voice_group: str | None
+    attempts: Any             # AttemptSettings
+    clips: bool
+    clip_pre_s: float
+    clip_post_s: float
+
+
+def open_record(args: argparse.Namespace, settings, ts, *, warn=None, use: str = "judging") -> RecordSetup:
+    """Speaker, profile (given, or stored with the speaker) and the session record for a run over ``ts``.
+
+    Reads ``--speaker``, ``--profile``/``--speaker-profile``, ``--no-profile``,
+    ``--voice-group``, ``--data``, ``--no-clips`` and ``--no-save``. A profile
+    stored with the speaker is found in the data folder even with ``--no-save``.
+    """
     from livevowel.errors import UserError
     from livevowel.session.attempts import AttemptSettings
-    from livevowel.session.runner import DrillSession
-    from livevowel.session.store import SessionRecorder, check_speaker_id
+    from livevowel.session.store import SessionRecorder, Store, check_speaker_id
 
-    settings = getattr(args, "_settings", None) or config.load(config_file=getattr(args, "config", None))
-    drill, ts = getattr(args, "_drill_and_set", None) or drill_and_set(args)
     speaker = args.speaker
     profile = None
-    profile_path = getattr(args, "profile", None) or getattr(args, "speaker_profile", None)
-    if profile_path:
+    profile_ref = getattr(args, "profile", None) or getattr(args, "speaker_profile", None)
+    if profile_ref:
         from livevowel.profile import load_profile
 
-        profile = load_profile(profile_path)
+        profile = load_profile(profile_ref)
         if speaker is not None and speaker != profile.speaker_id:
             raise UserError(f"--speaker {speaker} does not match the profile's speaker {profile.speaker_id}")
         speaker = profile.speaker_id
@@ -142,31 +161,53 @@ def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
     clips = not args.no_clips and sess_cfg.get("clips", True)
     rec = SessionRecorder(folder=args.data, clips=clips, memory_only=args.no_save, warn=warn)
     if profile is None and speaker is not None and not getattr(args, "no_profile", False):
-        profile = stored_profile(rec.store, speaker)
+        store = rec.store
+        if rec.in_memory:   # --no-save: look in the data folder all the same (read only)
+            try:
+                store = Store.open(args.data, create=False)
+            except UserError:
+                store = None
+        if store is not None:
+            profile = stored_profile(store, speaker)
+            if store is not rec.store:
+                store.close()
         if profile is not None:
-            profile_path = "(stored with the speaker)"
-            print(f"speaker {speaker}: judging with the profile stored in the record "
-                  f"(updated {profile.updated}; --no-profile to judge without it)", file=sys.stderr)
-    judged_set = profile.map_set(ts) if profile is not None else ts
+            profile_ref = "(stored with the speaker)"
+            print(f"speaker {speaker}: {use} with the profile stored in the record "
+                  f"(updated {profile.updated}; --no-profile to do without it)", file=sys.stderr)
+    judged = profile.map_set(ts) if profile is not None else ts
     voice_group = args.voice_group or (profile.voice_group if profile is not None else None)
+    return RecordSetup(rec, speaker, profile, profile_ref, judged, voice_group, att, clips,
+                       sess_cfg.get("clip_pre_ms", 250.0) / 1e3, sess_cfg.get("clip_post_ms", 150.0) / 1e3)
+
+
+def prepare(args: argparse.Namespace, *, mode: str = "self_paced", warn=None):
+    """Load drill, set, profile and settings; open the record. Returns (session, recorder, extras)."""
+    from livevowel import config
+    from livevowel.session.runner import DrillSession
+
+    settings = getattr(args, "_settings", None) or config.load(config_file=getattr(args, "config", None))
+    drill, ts = getattr(args, "_drill_and_set", None) or drill_and_set(args)
+    r = open_record(args, settings, ts, warn=warn)
     seed = args.seed
     if seed is None:
         import secrets
 
         seed = secrets.randbelow(2**31 - 1)
-    record_settings = {"analysis": settings.values.get("analysis"), "attempts": att.__dict__,
-                       "seed": seed, "pause_s": args.pause, "clips": clips,
-                       "profile": profile_path, "pace": getattr(args, "pace", None)}
-    sid = rec.start(speaker_id=speaker, voice_group=voice_group,
-                    profile=profile.to_dict() if profile is not None else None,
-                    target_set=judged_set.id, drill=drill.id, drill_file=str(drill.path) if drill.path else None,
-                    mode=mode, source=getattr(args, "source", None), settings=record_settings, note=args.note)
-    session = DrillSession(drill, judged_set, rec, mode=mode, attempt_settings=att, pause_s=args.pause, seed=seed,
-                           speaker_space=profile is not None,
-                           clip_pre_s=sess_cfg.get("clip_pre_ms", 250.0) / 1e3,
-                           clip_post_s=sess_cfg.get("clip_post_ms", 150.0) / 1e3)
+    record_settings = {"analysis": settings.values.get("analysis"), "attempts": r.attempts.__dict__,
+                       "seed": seed, "pause_s": args.pause, "clips": r.clips,
+                       "profile": r.profile_ref, "pace": getattr(args, "pace", None)}
+    sid = r.recorder.start(speaker_id=r.speaker, voice_group=r.voice_group,
+                           profile=r.profile.to_dict() if r.profile is not None else None,
+                           target_set=r.target_set.id, drill=drill.id,
+                           drill_file=str(drill.path) if drill.path else None,
+                           mode=mode, source=getattr(args, "source", None), settings=record_settings, note=args.note)
+    session = DrillSession(drill, r.target_set, r.recorder, mode=mode, attempt_settings=r.attempts,
+                           pause_s=args.pause, seed=seed, speaker_space=r.profile is not None,
+                           clip_pre_s=r.clip_pre_s, clip_post_s=r.clip_post_s)
     # the seeds actually used by shuffled blocks, for the record
-    return session, rec, {"settings": settings, "session_id": sid, "drill": drill, "target_set": judged_set}
+    return session, r.recorder, {"settings": settings, "session_id": sid, "drill": drill,
+                                 "target_set": r.target_set}
 
 
 def stored_profile(store, speaker_id: str):
@@ -229,7 +270,7 @@ def run_drill(args: argparse.Namespace) -> int:
                                warn=warn)
     except KeyboardInterrupt:
         interrupted = True
-        summary = session.finish()
+        summary = session.finish(stopped=True)
     return end_session(summary, session=session, recorder=rec, session_id=extra["session_id"],
                        interrupted=interrupted)
 
@@ -260,6 +301,53 @@ def print_summary(summary, *, session, recorder, session_id: int, interrupted: b
               f"'livevowel sessions --data {recorder.folder}' lists it)")
 
 
+def open_screen_input(args: argparse.Namespace, settings):
+    """The display and the input, opened before any record so that a failure leaves no empty session.
+
+    Returns ``(live_settings, source)``."""
+    from livevowel.audio.options import source_from_args
+    from livevowel.audio.pipeline import LiveSettings
+    from livevowel.ui import loop
+
+    loop.init_display(headless=bool(getattr(args, "headless", False)))
+    live = LiveSettings.from_config(settings)
+    return live, source_from_args(args, live=live)
+
+
+def run_screen_session(args: argparse.Namespace, session, controller, *, settings, options, live, source,
+                       title: str, size=(1280, 800)):
+    """The practice screen with a recording ``session`` riding along the live pipeline.
+
+    Returns ``(interrupted, loop_result or None, summary)``; the session is
+    finished, an attempt still open when the input was stopped (quit, time
+    limit, Ctrl-C) flagged ``stopped``.
+    """
+    from livevowel.dsp.engine import AnalysisSettings
+    from livevowel.session.live import DrillFeed
+    from livevowel.session.runner import tapped_pipeline
+    from livevowel.ui import loop
+    from livevowel.ui.app import make_tone
+    from livevowel.ui.screen import PracticeScreen
+
+    if not getattr(args, "quiet", False):
+        session.on_outcome = lambda oc: print(oc.line(), flush=True)
+    pipe = tapped_pipeline(source, analysis=AnalysisSettings.from_config(settings), live=live)
+    headless = bool(getattr(args, "headless", False))
+    tone = make_tone(options, headless=headless)
+    screen = PracticeScreen(session.target_set, controller, options=options, on_hit=lambda e: tone.play(),
+                            title=title)
+    res = None
+    try:
+        res = loop.run(screen, DrillFeed(session, pipe), headless=headless, seconds=getattr(args, "seconds", None),
+                       screenshot=getattr(args, "screenshot", None), size=size,
+                       fullscreen=getattr(args, "fullscreen", False), pace=getattr(args, "pace", 1.0) or 0.0,
+                       keep_open=False)
+    except KeyboardInterrupt:
+        pass
+    summary = session.finish(stopped=res is None or not res.input_ended)
+    return res is None, res, summary
+
+
 def run_drill_screen(args: argparse.Namespace, *, settings, options, size=(1280, 800)) -> int:
     """``practice --drill FILE``: the drill on the practice screen (self-paced, or coach-led with --coach).
 
@@ -268,42 +356,21 @@ def run_drill_screen(args: argparse.Namespace, *, settings, options, size=(1280,
     :class:`~livevowel.session.live.DrillController` and rides along the
     loop's pipeline as a :class:`~livevowel.session.live.DrillFeed`.
     """
-    from livevowel.audio.options import source_from_args
-    from livevowel.audio.pipeline import LiveSettings
-    from livevowel.dsp.engine import AnalysisSettings
-    from livevowel.session.live import DrillController, DrillFeed
-    from livevowel.session.runner import tapped_pipeline
-    from livevowel.ui import loop
-    from livevowel.ui.app import make_tone
-    from livevowel.ui.screen import PracticeScreen
+    from livevowel.session.live import DrillController
 
     def warn(msg: str) -> None:
         print(f"livevowel practice: warning: {msg}", file=sys.stderr, flush=True)
 
     args._settings = settings
+    args._drill_and_set = drill_and_set(args)
+    live, source = open_screen_input(args, settings)
     mode = "coach" if getattr(args, "coach", False) else "self_paced"
     session, rec, extra = prepare(args, mode=mode, warn=warn)
-    if not getattr(args, "quiet", False):
-        session.on_outcome = lambda oc: print(oc.line(), flush=True)
-    live = LiveSettings.from_config(settings)
-    source = source_from_args(args, live=live)
-    pipe = tapped_pipeline(source, analysis=AnalysisSettings.from_config(settings), live=live)
     ts = extra["target_set"]
-    headless = bool(getattr(args, "headless", False))
-    loop.init_display(headless=headless)
-    tone = make_tone(options, headless=headless)
-    controller = DrillController(session, ts.targets)
-    screen = PracticeScreen(ts, controller, options=options, on_hit=lambda e: tone.play(),
-                            title=f"{extra['drill'].title}  \u00b7  {ts.title}")
-    interrupted = False
-    try:
-        loop.run(screen, DrillFeed(session, pipe), headless=headless, seconds=getattr(args, "seconds", None),
-                 screenshot=getattr(args, "screenshot", None), size=size,
-                 fullscreen=getattr(args, "fullscreen", False), pace=getattr(args, "pace", 1.0) or 0.0,
-                 keep_open=False)
-    except KeyboardInterrupt:
-        interrupted = True
-    return end_session(session.finish(), session=session, recorder=rec, session_id=extra["session_id"],
+    interrupted, _, summary = run_screen_session(
+        args, session, DrillController(session, ts.targets), settings=settings, options=options, live=live,
+        source=source, title=f"{extra['drill'].title}  \u00b7  {ts.title}", size=size)
+    return end_session(summary, session=session, recorder=rec, session_id=extra["session_id"],
                        interrupted=interrupted)
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import sys
 
 NAME = "practice"
 SUMMARY = "practise vowels against target regions, live from the microphone"
@@ -16,7 +17,7 @@ Without --target, every target of the set can be practised (arrow keys or
 a click choose the current one); with --target only that one. A speaker
 profile (from calibration) maps the regions to your own voice.
 
-With --record (or --speaker ID) free practice is kept in the session
+With --save (or --speaker ID) free practice is kept in the session
 record like a drill: each attempt is judged when it ends against the target
 current while it lasted (at the target's hit size and the hold time) and
 saved with a clip of its audio, and the header then counts the recorded
@@ -33,7 +34,7 @@ examples:
   livevowel practice --targets gae-women
   livevowel practice --targets ssbe-men --target trap --theme contrast
   livevowel practice --targets gae-men --source file:take1.wav
-  livevowel practice --targets gae-women --speaker S07      # free practice, recorded
+  livevowel practice --targets gae-women --speaker S07      # free practice, saved
   livevowel practice --drill front-vowels-five-vowel-l1 --speaker S07
   livevowel practice --drill my-drill.yaml --headless --source file:take1.wav --pace 0"""
 
@@ -54,9 +55,9 @@ def configure(parser: argparse.ArgumentParser) -> None:
     from livevowel.cli.drill import add_drill_options
 
     add_drill_options(parser, file_positional=False, practice=True)
-    parser.add_argument("--record", action="store_true",
-                        help="free practice: keep it in the session record (implied by --speaker; "
-                             "--data, --no-clips, --no-save and --note apply)")
+    parser.add_argument("--save", action="store_true",
+                        help="free practice: keep it in the session record (implied by --speaker, --data, "
+                             "--note, --no-clips and --no-save)")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -76,13 +77,14 @@ def run(args: argparse.Namespace) -> int:
         from livevowel.errors import UserError
 
         raise UserError("give a target set with --targets SET (or a drill with --drill FILE)")
+    saved = _free_practice_saved(args)
     settings, options = settings_and_options(args)
     size = parse_size(args.size)
-    source = source_from_args(args, live=LiveSettings.from_config(settings))
     if args.headless is False:
         print(CAUTION, file=sys.stderr)
-    if args.record or args.speaker:
-        return run_recorded_practice(args, settings=settings, options=options, source=source, size=size)
+    if saved:
+        return run_recorded_practice(args, settings=settings, options=options, size=size)
+    source = source_from_args(args, live=LiveSettings.from_config(settings))
     screen, res = run_practice(settings=settings, options=options, targets=args.targets, target_id=args.target,
                        profile_path=args.speaker_profile, source=source, headless=args.headless,
                        seconds=args.seconds, screenshot=args.screenshot, pace=getattr(args, "pace", 1.0) or 0.0,
@@ -95,83 +97,52 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
-def run_recorded_practice(args: argparse.Namespace, *, settings, options, source, size) -> int:
-    """Free practice kept in the session record (``--record`` or ``--speaker``)."""
-    import sys
-
-    from livevowel.audio.pipeline import LiveSettings
-    from livevowel.cli.drill import stored_profile
-    from livevowel.dsp.engine import AnalysisSettings
+def _free_practice_saved(args: argparse.Namespace) -> bool:
+    """Whether free practice goes to the session record; options that only a drill takes are refused."""
     from livevowel.errors import UserError
-    from livevowel.session.attempts import AttemptSettings
+
+    for flag, value in (("--coach", args.coach), ("--pause", args.pause), ("--seed", args.seed)):
+        if value not in (None, False):
+            raise UserError(f"{flag} belongs to drills; add --drill FILE, or leave out {flag}")
+    return bool(args.save or args.speaker or args.data or args.note or args.no_clips or args.no_save)
+
+
+def run_recorded_practice(args: argparse.Namespace, *, settings, options, size) -> int:
+    """Free practice kept in the session record (``--save``, ``--speaker`` ...)."""
+    from livevowel.cli.drill import open_record, open_screen_input, run_screen_session
+    from livevowel.errors import UserError
     from livevowel.session.free import FreeController, FreeSession
-    from livevowel.session.live import DrillFeed
-    from livevowel.session.runner import tapped_pipeline
-    from livevowel.session.store import SessionRecorder, check_speaker_id
     from livevowel.targets import load_target_set
-    from livevowel.ui import loop
-    from livevowel.ui.app import make_tone
-    from livevowel.ui.screen import PracticeScreen
 
     def warn(msg: str) -> None:
         print(f"livevowel practice: warning: {msg}", file=sys.stderr, flush=True)
 
     ts = load_target_set(args.targets)
-    speaker, profile, profile_ref = args.speaker, None, None
-    if args.speaker_profile:
-        from livevowel.profile import load_profile
-
-        profile, profile_ref = load_profile(args.speaker_profile), args.speaker_profile
-        if speaker is not None and speaker != profile.speaker_id:
-            raise UserError(f"--speaker {speaker} does not match the profile's speaker {profile.speaker_id}")
-        speaker = profile.speaker_id
-    if speaker is not None:
-        check_speaker_id(speaker)
-    att = AttemptSettings.from_config(settings)
-    sess_cfg = settings.values.get("session", {})
-    clips = not args.no_clips and sess_cfg.get("clips", True)
-    rec = SessionRecorder(folder=args.data, clips=clips, memory_only=args.no_save, warn=warn)
-    if profile is None and speaker is not None and not args.no_profile:
-        profile = stored_profile(rec.store, speaker)
-        if profile is not None:
-            profile_ref = "(stored with the speaker)"
-            print(f"speaker {speaker}: regions mapped with the profile stored in the record "
-                  f"(updated {profile.updated}; --no-profile to practise without it)", file=sys.stderr)
-    judged = profile.map_set(ts) if profile is not None else ts
-    if args.target is not None and judged.find(args.target) is None:
-        raise UserError(f"target set {judged.id} has no target {args.target!r}; known: {', '.join(judged.ids)}")
+    if args.target is not None and ts.find(args.target) is None:
+        raise UserError(f"target set {ts.id} has no target {args.target!r}; known: {', '.join(ts.ids)}")
+    live, source = open_screen_input(args, settings)
+    r = open_record(args, settings, ts, warn=warn, use="regions mapped")
+    judged = r.target_set
     controller = FreeController(judged.targets, judged.find(args.target).id if args.target else None,
                                 locked=args.target is not None)
-    sid = rec.start(speaker_id=speaker, voice_group=args.voice_group or (profile.voice_group if profile else None),
-                    profile=profile.to_dict() if profile is not None else None, target_set=judged.id, mode="free",
-                    source=getattr(args, "source", None), note=args.note,
-                    settings={"analysis": settings.values.get("analysis"), "attempts": att.__dict__,
-                              "hold_s": options.hold_s, "clips": clips, "profile": profile_ref,
-                              "pace": getattr(args, "pace", None)})
-    session = FreeSession(judged, rec, lambda: controller.current.id, hold_s=options.hold_s, attempt_settings=att,
-                          speaker_space=profile is not None, clip_pre_s=sess_cfg.get("clip_pre_ms", 250.0) / 1e3,
-                          clip_post_s=sess_cfg.get("clip_post_ms", 150.0) / 1e3)
-    if not args.quiet:
-        session.on_outcome = lambda oc: print(oc.line(), flush=True)
+    sid = r.recorder.start(speaker_id=r.speaker, voice_group=r.voice_group,
+                           profile=r.profile.to_dict() if r.profile is not None else None, target_set=judged.id,
+                           mode="free", source=getattr(args, "source", None), note=args.note,
+                           settings={"analysis": settings.values.get("analysis"), "attempts": r.attempts.__dict__,
+                                     "hold_s": options.hold_s, "clips": r.clips, "profile": r.profile_ref,
+                                     "pace": getattr(args, "pace", None)})
+    session = FreeSession(judged, r.recorder, lambda: controller.current.id, hold_s=options.hold_s,
+                          attempt_settings=r.attempts, speaker_space=r.profile is not None,
+                          clip_pre_s=r.clip_pre_s, clip_post_s=r.clip_post_s)
     controller.attach(session)
-    live = LiveSettings.from_config(settings)
-    pipe = tapped_pipeline(source, analysis=AnalysisSettings.from_config(settings), live=live)
-    loop.init_display(headless=args.headless)
-    tone = make_tone(options, headless=args.headless)
-    title = judged.title + ("  \u00b7  speaker profile" if profile is not None else "") + "  \u00b7  recorded"
-    screen = PracticeScreen(judged, controller, options=options, on_hit=lambda e: tone.play(), title=title)
-    interrupted = False
-    try:
-        res = loop.run(screen, DrillFeed(session, pipe), headless=args.headless, seconds=args.seconds,
-                       screenshot=args.screenshot, size=size, fullscreen=args.fullscreen,
-                       pace=getattr(args, "pace", 1.0) or 0.0, keep_open=False)
-    except KeyboardInterrupt:
-        interrupted, res = True, None
-    summary = session.finish()
+    title = judged.title + ("  \u00b7  speaker profile" if r.profile is not None else "") + "  \u00b7  saved"
+    interrupted, res, summary = run_screen_session(args, session, controller, settings=settings, options=options,
+                                                   live=live, source=source, title=title, size=size)
     print(f"\nsession {sid} {'stopped' if interrupted else 'ended'} (free practice, set {judged.id})")
     print(summary.format())
     if res is not None and res.screenshot is not None:
         print(f"screenshot: {res.screenshot}")
+    rec = r.recorder
     if rec.in_memory:
         print(f"NOT SAVED: {rec.warning}", file=sys.stderr)
     else:

@@ -88,11 +88,11 @@ def configure(parser: argparse.ArgumentParser) -> None:
     p.add_argument("--listen", action="store_true", help="measure the vowels from the input, prompting each")
     p.add_argument("--vowels", metavar="V,V,...",
                    help="with --listen: the vowels to ask for (ids, IPA or keywords; default the corners)")
-    p.add_argument("--takes", metavar="N", type=int, default=2, help="with --listen: takes per vowel (default 2)")
+    p.add_argument("--takes", metavar="N", type=int, help="with --listen: takes per vowel, 1-10 (default 2)")
     from livevowel.audio.options import add_source_options
     from livevowel.cli import add_config_option
 
-    add_source_options(p)
+    add_source_options(p, source_default=None)
     add_config_option(p)
     add_targets_option(p, flag="--set")
     p.add_argument("--speaker", metavar="ID", help="pseudonymous speaker code (new profile)")
@@ -223,9 +223,18 @@ def _calibrate(args: argparse.Namespace) -> int:
 
     if bool(args.token) == bool(args.listen):
         raise UserError("give the measured vowels with --token VOWEL=F1,F2 ..., or --listen to measure them")
+    if not args.listen:
+        for flag, value in (("--vowels", args.vowels), ("--takes", args.takes), ("--source", args.source),
+                            ("--device", args.device), ("--channel", args.channel)):
+            if value is not None:
+                raise UserError(f"{flag} goes with --listen (measure the vowels); add --listen or leave out {flag}")
     path = Path(args.profile)
     if not path.exists() and not (args.speaker and args.group and args.set):
         raise UserError(f"{path} does not exist yet: give --speaker, --group and --set to create it")
+    if args.speaker:
+        from livevowel.session.store import check_speaker_id
+
+        check_speaker_id(args.speaker)
     now = datetime.datetime.now().astimezone().isoformat(timespec="seconds")
     if args.listen:
         tokens = _listen_tokens(args, path)
@@ -263,47 +272,53 @@ def _listen_tokens(args: argparse.Namespace, path) -> list:
     from livevowel.audio.pipeline import LiveSettings
     from livevowel.dsp.engine import AnalysisSettings
     from livevowel.errors import UserError
-    from livevowel.session.calibration import run_calibration
+    from livevowel.profile import CalibrationToken, fit_transform, load_profile
+    from livevowel.session.attempts import AttemptSettings
+    from livevowel.session.calibration import corner_vowels, resolve_vowels, run_calibration
     from livevowel.targets import load_target_set
 
-    ref = args.set
-    if ref is None:
-        from livevowel.profile import load_profile
-
-        ref = load_profile(path).transform.reference_set
-    ts = load_target_set(ref)
+    old = load_profile(path) if path.exists() else None
+    ts = load_target_set(args.set or old.transform.reference_set)
+    takes = 2 if args.takes is None else args.takes
+    ids = resolve_vowels(ts, [v.strip() for v in args.vowels.split(",") if v.strip()]) if args.vowels \
+        else corner_vowels(ts)
+    # a dry run of the fit with the vowels planned (at the set's own centres): a missing corner or too few
+    # vowels for the method is reported now, not after the speaker has said them all
+    planned = [CalibrationToken(v, ts.get(v).f1_hz, ts.get(v).f2_hz) for v in ids]
+    fit_transform(planned + list(old.tokens if old else ()), ts,
+                  method=args.method or (old.method if old else "auto"))
+    group = args.group or (old.voice_group if old else None)
     settings = config.load(config_file=getattr(args, "config", None))
-    if args.group in ("adult_male", "adult_female", "child") and settings.values["analysis"].get("voice") == "auto":
-        settings = config.load(config_file=getattr(args, "config", None), overrides={"analysis": {"voice": args.group}})
+    if group in ("adult_male", "adult_female", "child") and settings.values["analysis"].get("voice") == "auto":
+        settings = config.load(config_file=getattr(args, "config", None), overrides={"analysis": {"voice": group}})
     live = LiveSettings.from_config(settings)
+    args.source = args.source or "mic"
     source = source_from_args(args, live=live)
-    vowels = [v.strip() for v in args.vowels.split(",") if v.strip()] if args.vowels else None
-    if (args.source or "mic") == "mic":
+    if args.source == "mic":
         print(CAUTION, file=sys.stderr)
 
     def prompt(target, take) -> None:
         word = target.words[0] if target.words else target.id
         label = f"/{target.ipa}/" if target.ipa else target.id
         print(f"say {label} as in \u201c{word}\u201d ({target.lexical_set or target.id}), take {take} of "
-              f"{args.takes} ...", flush=True)
+              f"{takes} ...", flush=True)
 
     def took(oc, take) -> None:
         if take is None:
-            flags = ", ".join(oc.attempt.flags) or oc.judgement.reason
-            print(f"  not used ({flags}); again, please", flush=True)
+            why = ", ".join(oc.attempt.flags) or oc.judgement.reason
+            print(f"  not used ({why}); {'again, please' if oc.prompt is not None else 'then say it'}", flush=True)
         else:
             f3 = f" F3 {take.f3_hz:.0f}" if take.f3_hz is not None else ""
             f0 = f" (F0 {take.f0_hz:.0f})" if take.f0_hz is not None else ""
             print(f"  F1 {take.f1_hz:.0f} F2 {take.f2_hz:.0f}{f3} Hz{f0}", flush=True)
 
-    takes = run_calibration(ts, source, vowels=vowels, takes=args.takes,
-                            analysis=AnalysisSettings.from_config(settings), live=live, on_prompt=prompt,
-                            on_take=took)
-    want = len(vowels or []) or 3
-    if len({t.vowel for t in takes}) < want:
-        raise UserError(f"the input ended after {len(takes)} usable takes, before every vowel was measured; "
-                        f"{path} is unchanged")
-    return [t.token() for t in takes]
+    got = run_calibration(ts, source, vowels=ids, takes=takes, analysis=AnalysisSettings.from_config(settings),
+                          live=live, attempt_settings=AttemptSettings.from_config(settings), on_prompt=prompt,
+                          on_take=took)
+    short = [f"{v}: {n} of {takes}" for v in ids if (n := sum(t.vowel == v for t in got)) < takes]
+    if short:
+        raise UserError(f"the input ended before every take was made ({'; '.join(short)}); {path} is unchanged")
+    return [t.token() for t in got]
 
 
 def _table(header, rows, *, right=frozenset()) -> None:

@@ -34,7 +34,7 @@ from livevowel.dsp.types import Frame, FrameTrack
 
 #: Flags that make an attempt unusable for judgement (it is kept and stored,
 #: but is not scored as a trial).
-BLOCKING_FLAGS: tuple[str, ...] = ("too_short", "too_quiet", "clipped", "unmeasured")
+BLOCKING_FLAGS: tuple[str, ...] = ("too_short", "too_quiet", "clipped", "unmeasured", "stopped")
 
 #: Every flag an attempt can carry, with its meaning (for help and reports).
 FLAG_MEANINGS: dict[str, str] = {
@@ -43,6 +43,7 @@ FLAG_MEANINGS: dict[str, str] = {
     "clipped": "the input was clipped (samples at full scale)",
     "unmeasured": "formants were measured in too few frames",
     "cut": "voicing went on past the longest attempt; the run was cut there",
+    "stopped": "the input was stopped (quit, time limit) during the attempt, which may be incomplete",
 }
 
 
@@ -390,14 +391,21 @@ class AttemptSegmenter:
         return self._run[0].time_s - self.hop_s / 2 if self._run else None
 
     def push(self, frame: Frame) -> list[AttemptSpan]:
-        """Feed one frame; return the runs closed by it (usually none)."""
-        if not self._hop_fixed and self._last_time is not None and self._hop is None:
-            d = frame.time_s - self._last_time
+        """Feed one frame; return the runs closed by it (usually none).
+
+        A jump in frame times longer than the hangover (the input was paused,
+        or frames were lost) closes the open run first: the speech on either
+        side of the jump is not one attempt."""
+        prev = self._last_time
+        if not self._hop_fixed and prev is not None and self._hop is None:
+            d = frame.time_s - prev
             if d > 0:
                 self._hop = d
         self._last_time = frame.time_s
         out: list[AttemptSpan] = []
         s = self.settings
+        if self._run and prev is not None and frame.time_s - prev > s.hangover_s + self.hop_s + 1e-9:
+            out += self._close(())
         if self._run:
             if frame.voiced:
                 self._run.append(frame)
@@ -423,9 +431,13 @@ class AttemptSegmenter:
             out += self.push(fr)
         return out
 
-    def flush(self) -> list[AttemptSpan]:
-        """End of input: close the open run, if any."""
-        return self._close(()) if self._run else []
+    def flush(self, *, stopped: bool = False) -> list[AttemptSpan]:
+        """End of input: close the open run, if any.
+
+        ``stopped``: the input was stopped rather than ending by itself (the
+        user quit, a time limit); an open run is flagged ``stopped`` (kept, not
+        judged), since the attempt may have gone on."""
+        return self._close(("stopped",) if stopped else ()) if self._run else []
 
     def _close(self, flags: tuple[str, ...]) -> list[AttemptSpan]:
         frames = self._run[: self._last_voiced + 1]

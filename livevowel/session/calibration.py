@@ -6,22 +6,34 @@ A speaker profile (:mod:`livevowel.profile`) needs the speaker's own F1/F2
 finds each attempt in the stream with the same segmentation and steady-part
 measures as drills (:mod:`livevowel.session.attempts`), asks again when an
 attempt is flagged (too short, clipped, too quiet, not measured ...) and
-returns one :class:`~livevowel.profile.CalibrationToken` per take. The run
-is a self-paced drill of one block over the reference set, kept in memory
-only (calibration takes are not session trials).
+returns one :class:`~livevowel.profile.CalibrationToken` per take. A take
+that could not be the vowel asked for by any speaker (:func:`plausible_as`:
+say LOT when FLEECE was asked) is refused and asked again, so a take never
+lands on the wrong vowel. The run is a self-paced drill of one block over
+the reference set, kept in memory only (calibration takes are not session
+trials).
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any, Callable, Sequence
 
-from livevowel.errors import UserError
+import numpy as np
 
-__all__ = ["CalibrationTake", "corner_vowels", "calibration_drill", "run_calibration"]
+from livevowel.errors import UserError
+from livevowel.session.runner import DrillSession
+
+__all__ = ["CalibrationTake", "CalibrationSession", "corner_vowels", "resolve_vowels", "plausible_as",
+           "calibration_drill", "run_calibration"]
 
 #: Self-paced pause after each take before the next prompt, seconds.
 PAUSE_S = 0.5
+#: Speaker factors (speaker's formants / the set's) a take may imply. The
+#: Peterson & Barney (1952) group means (from memory) put children about 1.4x
+#: above men (/i/ F2 3200 vs 2290 Hz, /ɑ/ F1 1030 vs 730 Hz), so 1/1.55-1.6
+#: lets a child calibrate against a men's set and a man against a children's.
+SCALE_RANGE = (1.0 / 1.55, 1.6)
 
 
 @dataclass(frozen=True)
@@ -59,6 +71,37 @@ def corner_vowels(target_set) -> list[str]:
     return out
 
 
+def resolve_vowels(target_set, vowels: Sequence[str]) -> list[str]:
+    """Target ids of ``vowels`` (ids, IPA symbols or keywords), each once."""
+    ids: list[str] = []
+    for v in vowels:
+        t = target_set.find(v)
+        if t is None:
+            raise UserError(f"target set {target_set.id} has no vowel {v!r}; known: {', '.join(target_set.ids)}")
+        if t.id in ids:
+            raise UserError(f"--vowels names {t.id} twice ({v!r}); give each vowel once and use --takes for more")
+        ids.append(t.id)
+    return ids
+
+
+def plausible_as(target_set, vowel_id: str, f1_hz: float, f2_hz: float) -> tuple[bool, str]:
+    """Whether a take could be ``vowel_id`` said by some speaker.
+
+    True when for some speaker factor ``k`` in :data:`SCALE_RANGE` the
+    nearest target of the set to ``(F1 / k, F2 / k)`` is ``vowel_id``;
+    otherwise False and the target the take resembles most at any of those
+    factors (for the message).
+    """
+    best, best_d = vowel_id, float("inf")
+    for k in np.geomspace(SCALE_RANGE[0], SCALE_RANGE[1], 49):
+        t, d = target_set.nearest(f1_hz / k, f2_hz / k)
+        if t.id == vowel_id:
+            return True, t.id
+        if d < best_d:
+            best, best_d = t.id, d
+    return False, best
+
+
 def calibration_drill(target_set, vowels: Sequence[str], *, takes: int = 2):
     """A one-block self-paced drill prompting each vowel ``takes`` times in a row (ids or labels)."""
     from livevowel.session.drills import parse_drill
@@ -66,10 +109,8 @@ def calibration_drill(target_set, vowels: Sequence[str], *, takes: int = 2):
     if not 1 <= int(takes) <= 10:
         raise UserError(f"--takes {takes}: give 1 to 10 takes per vowel")
     items = []
-    for v in vowels:
-        t = target_set.find(v)
-        if t is None:
-            raise UserError(f"target set {target_set.id} has no vowel {v!r}; known: {', '.join(target_set.ids)}")
+    for vid in resolve_vowels(target_set, vowels):
+        t = target_set.get(vid)
         word = t.words[0] if t.words else (t.lexical_set or t.id)
         items += [{"prompt": word, "target": t.id}] * int(takes)
     return parse_drill({"drill": "calibration", "title": "calibration vowels", "target_set": target_set.id,
@@ -77,8 +118,31 @@ def calibration_drill(target_set, vowels: Sequence[str], *, takes: int = 2):
                        source="calibration")
 
 
+class CalibrationSession(DrillSession):
+    """The calibration drill: a take counts (and the next prompt follows) only
+    when it is usable and plausible as the vowel asked for (:func:`plausible_as`);
+    an attempt before the prompt is answered with "too early"."""
+
+    def _judge(self, att, hop_s: float):
+        from livevowel.session.judge import judge
+
+        prompt = self.run.prompt if self.run.accepts(att.start_s) else None
+        if prompt is None:
+            j = judge(att, self.target_set, None, hop_s=hop_s)
+            return replace(j, reason="too early: wait for the prompt"), None, None
+        j = judge(att, self.target_set, prompt.target, hold_s=0.0, hop_s=hop_s)
+        if j.hit is not None:
+            ok, like = plausible_as(self.target_set, prompt.target, att.f1_hz, att.f2_hz)
+            if ok:
+                j = replace(j, hit=True, reason="used")
+            else:
+                t = self.target_set.get(prompt.target)
+                j = replace(j, hit=None, reason=f"that sounded like {like}, not {t.lexical_set or t.id}")
+        return j, prompt, self.run.attempt(j.hit, now_s=self.now_s)
+
+
 def run_calibration(target_set, source, *, vowels: Sequence[str] | None = None, takes: int = 2,
-                    analysis: Any = None, live: Any = None,
+                    analysis: Any = None, live: Any = None, attempt_settings: Any = None,
                     on_prompt: Callable[[Any, int], None] | None = None,
                     on_take: Callable[[Any, "CalibrationTake | None"], None] | None = None,
                     poll_s: float = 0.005, timeout_s: float | None = None) -> list[CalibrationTake]:
@@ -94,8 +158,8 @@ def run_calibration(target_set, source, *, vowels: Sequence[str] | None = None, 
         Target ids or labels (default :func:`corner_vowels`).
     takes : int
         Usable takes per vowel (1-10).
-    analysis, live :
-        Engine and live-path settings.
+    analysis, live, attempt_settings :
+        Engine, live-path and attempt settings (as drills use them).
     on_prompt : callable, optional
         ``on_prompt(target, take)`` when a vowel is asked for (``take`` 1-based).
     on_take : callable, optional
@@ -110,7 +174,7 @@ def run_calibration(target_set, source, *, vowels: Sequence[str] | None = None, 
         In the order taken; fewer than asked when the input ended first.
     """
     from livevowel.session.attempts import AttemptSettings
-    from livevowel.session.runner import DrillSession, run_headless
+    from livevowel.session.runner import run_headless
     from livevowel.session.store import SessionRecorder
 
     ids = list(vowels) if vowels else corner_vowels(target_set)
@@ -133,8 +197,8 @@ def run_calibration(target_set, source, *, vowels: Sequence[str] | None = None, 
         if on_take is not None:
             on_take(oc, take)
 
-    session = DrillSession(drill, target_set, rec, mode="self_paced", attempt_settings=AttemptSettings(),
-                           on_outcome=outcome)
+    session = CalibrationSession(drill, target_set, rec, mode="self_paced",
+                                 attempt_settings=attempt_settings or AttemptSettings(), on_outcome=outcome)
     shown: tuple | None = None
 
     def announce() -> None:

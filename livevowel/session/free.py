@@ -6,17 +6,16 @@ practice the way a drill is recorded: each attempt is found in the stream
 (:class:`~livevowel.session.attempts.AttemptSegmenter`), judged against the
 target that was current while it lasted (an attempt during which the target
 was changed is saved but not judged, as the screen drops it), at the
-target's own hit size and
-the screen's hold (:func:`~livevowel.session.judge.judge`, the rule drills
-use), and saved to the session record with its clip as soon as its trailing
+target's own hit size and the screen's hold
+(:func:`~livevowel.session.judge.judge`, the rule drills use), and saved to the session record with its clip as soon as its trailing
 audio is in (session mode ``free``; every judged attempt is a trial, with
 no blocks). Progress across sessions then counts free practice per target
 beside drills.
 
 :class:`FreeController` is the screen's target controller for such a run:
-the plain stepping controller, plus the recorded counts for the header and
-the recorded results for the pulse and tone, so that what the screen counts
-is what the record says.
+the plain stepping controller, plus the saved counts for the header and the
+saved results for the pulse and tone, so that what the screen counts is what
+the record says.
 """
 
 from __future__ import annotations
@@ -24,6 +23,7 @@ from __future__ import annotations
 from typing import Any, Callable, Sequence
 
 from livevowel.feedback import HitEvent, Tally, TargetController
+from livevowel.session.live import ResultFollower
 from livevowel.session.attempts import AttemptSettings
 from livevowel.session.drills import TrialResult
 from livevowel.session.judge import judge
@@ -116,28 +116,20 @@ class FreeSession(DrillSession):
         ids.add(before[-1] if before else (self._changes[0][1] if self._changes else self.target_of()))
         return ids
 
-    def _on_span(self, span) -> Outcome:
+    def _judge(self, att, hop_s: float):
+        """Judge against the screen's target (none when it changed during the attempt)."""
         from dataclasses import replace
 
-        from livevowel.session.attempts import measure_span
-
-        samples = self.audio.get(span.start_s, span.end_s)
-        att = measure_span(span, settings=self.settings, samples=samples)
         during = self._targets_during(att.start_s, att.end_s)
         target = next(iter(during)) if len(during) == 1 else None
-        j = judge(att, self.target_set, target, hold_s=self.hold_s, hop_s=span.hop_s,
-                  speaker_space=self.speaker_space)
+        j = judge(att, self.target_set, target, hold_s=self.hold_s, hop_s=hop_s, speaker_space=self.speaker_space)
         if len(during) > 1:
             j = replace(j, reason="not judged: the target changed during the attempt")
         trial = None
         if j.hit is not None:
             self._trials += 1
             trial = TrialResult(self._trials, j.target_id, bool(j.hit), bool(j.hit))
-        self._number += 1
-        oc = Outcome(self._number, att, j, None, trial)
-        self.outcomes.append(oc)
-        self._pending.append((oc, self._row(oc)))
-        return oc
+        return j, None, trial
 
     def _row(self, oc: Outcome) -> dict:
         row = super()._row(oc)
@@ -148,7 +140,7 @@ class FreeSession(DrillSession):
         return row
 
 
-class FreeController(TargetController):
+class FreeController(ResultFollower, TargetController):
     """The stepping controller of free practice, showing what :class:`FreeSession` records.
 
     Parameters
@@ -160,11 +152,7 @@ class FreeController(TargetController):
     def __init__(self, targets: Sequence[Any], current_id: str | None = None, *, locked: bool = False) -> None:
         super().__init__(targets, current_id, locked=locked)
         self.session: FreeSession | None = None
-        self._seen = 0
-        self._events: list[HitEvent] = []
-        self._hits = 0
-        self._trials = 0
-        self._streak = 0
+        self._hits = self._trials = self._streak = 0
 
     def attach(self, session: FreeSession) -> None:
         """Follow ``session``'s results (its ``target_of`` should read :attr:`current`)."""
@@ -175,23 +163,15 @@ class FreeController(TargetController):
         """Recorded trials, hits and the streak of this session (None before :meth:`attach`)."""
         if self.session is None:
             return None
-        return Tally(self._hits, self._trials, self._streak, "recorded")
+        return Tally(self._hits, self._trials, self._streak, "saved")
 
     def take_events(self) -> list[HitEvent] | None:
-        if self.session is None:
-            return None
-        out, self._events = self._events, []
-        return out
+        return None if self.session is None else super().take_events()
 
     def update(self, time_s: float) -> None:
-        s = self.session
-        if s is None:
+        if self.session is None:
             return
-        for o in s.outcomes[self._seen:]:
-            if o.trial is None:
-                continue
+        for o in self._follow(self.session.outcomes, time_s):
             self._trials += 1
             self._hits += int(o.trial.hit)
             self._streak = self._streak + 1 if o.trial.hit else 0
-            self._events.append(HitEvent("hit" if o.trial.hit else "miss", float(time_s), o.trial.target))
-        self._seen = len(s.outcomes)

@@ -27,6 +27,33 @@ from livevowel.feedback import HitEvent, Tally
 from livevowel.session.runner import DrillSession, Outcome
 
 
+class ResultFollower:
+    """Mixin for screen controllers: a session's recorded results as screen events.
+
+    Call :meth:`_follow` from ``update`` with the session's outcomes; the
+    screen collects the hits and misses with :meth:`take_events` (and pulses
+    and sounds the tone for those, at the size each was judged at).
+    """
+
+    _seen = 0
+
+    def _follow(self, outcomes: Sequence[Outcome], time_s: float) -> list[Outcome]:
+        """The counted outcomes since the last call (noted as events)."""
+        new = [o for o in outcomes[self._seen:] if o.trial is not None]
+        self._seen = len(outcomes)
+        events = self.__dict__.setdefault("_events", [])
+        for o in new:
+            events.append(HitEvent("hit" if o.trial.hit else "miss", float(time_s),
+                                   o.judgement.target_id or o.trial.target, o.judgement.hit_size_sd))
+        return new
+
+    def take_events(self) -> list[HitEvent]:
+        """Hits and misses recorded since the last call (oldest first)."""
+        out = self.__dict__.get("_events", [])
+        self._events = []
+        return out
+
+
 class DrillFeed:
     """A pipeline for the display loop that also runs the drill session."""
 
@@ -40,11 +67,15 @@ class DrillFeed:
         return self
 
     def stop(self, *a: Any, **kw: Any) -> None:
+        """Stop the pipeline. Its audio still goes to the session (for the clips of
+        attempts already closed), its last frames do not: the loop has read every
+        frame when the input ended by itself, and otherwise (quit, time limit) the
+        rest is the flush of a stopped input, whose open attempt the session's
+        ``finish(stopped=True)`` keeps unjudged."""
         self.pipeline.stop(*a, **kw)
         for b in self.pipeline.take_blocks():
             self.session.add_audio(b.samples, start_s=b.start_time_s, rate_hz=b.rate_hz)
-        if not self.session.done:
-            self.outcomes += self.session.add_frames(self.pipeline.drain())
+        self.pipeline.drain()
 
     def drain(self) -> list:
         for b in self.pipeline.take_blocks():
@@ -75,7 +106,7 @@ class DrillFeed:
         return getattr(self.pipeline, name)
 
 
-class DrillController:
+class DrillController(ResultFollower):
     """The screen's target controller, driven by a drill session.
 
     Parameters
@@ -94,8 +125,7 @@ class DrillController:
         self._index = 0
         self.version = 0
         self.label = ""
-        self._seen = 0
-        self._events: list[HitEvent] = []
+        self._final: Tally | None = None
         self.update(0.0)
 
     @property
@@ -119,8 +149,10 @@ class DrillController:
         """Recorded hits and trials of the current block (after the drill: of the session)."""
         s = self.session
         if s.done or s.prompt is None:
-            summ = s.recorder.store.summary(s.recorder.session_id)
-            return Tally(summ.hits, summ.trials, 0, "session")
+            if self._final is None:      # asked every frame: read the record once
+                summ = s.recorder.store.summary(s.recorder.session_id)
+                self._final = Tally(summ.hits, summ.trials, 0, "session")
+            return self._final
         st = s.run.block
         counted = st.counted()
         streak = 0
@@ -130,19 +162,11 @@ class DrillController:
             streak += 1
         return Tally(sum(r.hit for r in counted), len(counted), streak, f"block {st.index + 1}")
 
-    def take_events(self) -> list[HitEvent]:
-        """Hits and misses recorded since the last call (oldest first)."""
-        out, self._events = self._events, []
-        return out
-
     def update(self, time_s: float) -> None:
         """Follow the prompt; refresh the label; note new recorded results."""
         s = self.session
-        for o in s.outcomes[self._seen:]:
-            if o.trial is not None:
-                self._events.append(HitEvent("hit" if o.trial.hit else "miss", float(time_s),
-                                            o.judgement.target_id or o.trial.target, o.judgement.hit_size_sd))
-        self._seen = len(s.outcomes)
+        if self._follow(s.outcomes, time_s):
+            self._final = None
         p = s.prompt
         if p is not None:
             tid = s.target_set.get(p.target).id

@@ -60,8 +60,10 @@ class Outcome:
         where = f"{a.start_s:7.2f}-{a.end_s:6.2f} s"
         if self.prompt is not None:
             what = f"{self.prompt.item.prompt!r}->{self.prompt.target}"
-        else:   # free practice judges against the screen's target
-            what = f"->{j.target_id}" if j.target_id else "(between prompts)"
+        elif j.target_id:   # free practice judges against the screen's target
+            what = f"->{j.target_id}"
+        else:
+            what = "(target changed)" if "target changed" in j.reason else "(between prompts)"
         if self.trial is not None:
             res = "HIT " if self.trial.hit else "miss"
             res += f" {j.closeness:3.0f}"
@@ -193,9 +195,10 @@ class DrillSession:
         self.run.tick(self.now_s)
         self._write_events()
 
-    def end_of_input(self) -> list[Outcome]:
-        """The input ended: close an open attempt and write everything pending."""
-        out = [self._on_span(span) for span in self.segmenter.flush()]
+    def end_of_input(self, *, stopped: bool = False) -> list[Outcome]:
+        """The input ended (``stopped``: was stopped during it): close an open
+        attempt (flagged ``stopped``) and write everything pending."""
+        out = [self._on_span(span) for span in self.segmenter.flush(stopped=stopped)]
         self._flush_pending(final=True)
         return out
 
@@ -233,22 +236,18 @@ class DrillSession:
     def prompt(self) -> Prompt | None:
         return self.run.prompt
 
-    def finish(self) -> SessionSummary:
-        """Write what is pending, stamp the end, return the summary."""
-        self.end_of_input()
+    def finish(self, *, stopped: bool = False) -> SessionSummary:
+        """Write what is pending, stamp the end, return the summary
+        (``stopped``: see :meth:`end_of_input`)."""
+        self.end_of_input(stopped=stopped)
         self._write_events()
         return self.recorder.finish()
 
     # -- internals ----------------------------------------------------------------------
     def _on_span(self, span) -> Outcome:
-        hop = span.hop_s
         samples = self.audio.get(span.start_s, span.end_s)
         att = measure_span(span, settings=self.settings, samples=samples)
-        prompt = self.run.prompt if self.run.accepts(att.start_s) else None
-        target = prompt.target if prompt is not None else None
-        j = judge(att, self.target_set, target, hit_size_sd=prompt.hit_size_sd if prompt else None,
-                  hold_s=prompt.hold_s if prompt else 0.0, hop_s=hop, speaker_space=self.speaker_space)
-        trial = self.run.attempt(j.hit, now_s=self.now_s) if prompt is not None else None
+        j, prompt, trial = self._judge(att, span.hop_s)
         self._number += 1
         oc = Outcome(self._number, att, j, prompt, trial)
         self.outcomes.append(oc)
@@ -256,6 +255,15 @@ class DrillSession:
         self._pending.append((oc, row))
         self._write_events()
         return oc
+
+    def _judge(self, att: Attempt, hop_s: float) -> tuple[Judgement, Prompt | None, TrialResult | None]:
+        """Judge an attempt against the prompt it answers; register the trial."""
+        prompt = self.run.prompt if self.run.accepts(att.start_s) else None
+        target = prompt.target if prompt is not None else None
+        j = judge(att, self.target_set, target, hit_size_sd=prompt.hit_size_sd if prompt else None,
+                  hold_s=prompt.hold_s if prompt else 0.0, hop_s=hop_s, speaker_space=self.speaker_space)
+        trial = self.run.attempt(j.hit, now_s=self.now_s) if prompt is not None else None
+        return j, prompt, trial
 
     def _row(self, oc: Outcome) -> dict:
         a, j, p = oc.attempt, oc.judgement, oc.prompt
@@ -358,6 +366,7 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
     """
     pipe = tapped_pipeline(source, analysis=analysis, live=live)
     t0 = time.monotonic()
+    stopped = False
     if on_poll is not None:
         on_poll()
     pipe.start()
@@ -370,16 +379,20 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
             if session.done or finished:
                 break
             if timeout_s is not None and time.monotonic() - t0 > timeout_s:
+                stopped = True
                 break
             time.sleep(poll_s)
     finally:
         pipe.stop()
-    if not session.done:
+    if stopped:          # the flush of a stopped input: its audio for the clips, not its frames
+        for b in pipe.take_blocks():
+            session.add_audio(b.samples, start_s=b.start_time_s, rate_hz=b.rate_hz)
+    elif not session.done:
         feed(session, pipe)
     if pipe.error is not None:
         from livevowel.errors import RunFailure
 
-        session.finish()
+        session.finish(stopped=True)
         raise RunFailure(f"analysis failed: {pipe.error}")
     msgs = []
     if pipe.dropped_blocks:
@@ -391,4 +404,4 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
         session.recorder.event("warning", detail={"message": m})
         if warn is not None:
             warn(m)
-    return session.finish()
+    return session.finish(stopped=stopped)

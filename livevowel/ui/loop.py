@@ -90,6 +90,8 @@ class LoopResult:
     draw_s: list = field(default_factory=list)
     screenshot: Path | None = None
     quit_by_user: bool = False
+    #: The input ended by itself (a recording played to its end), rather than being stopped.
+    input_ended: bool = False
 
 
 def screen_available() -> bool:
@@ -216,6 +218,7 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
             if seconds is not None and res.input_s >= seconds:
                 break
             if started and pipeline.done and not frames:
+                res.input_ended = True
                 if headless or not keep_open:
                     break
                 screen.message = "the input has ended  ·  Esc to quit"

@@ -213,6 +213,7 @@ class PracticeScreen:
             self.controller.update(t)
             cur = self.controller.current
             size, hold = self.task()
+            hold = hold if hold > 0 else float(self.options.hold_s)   # the counter needs a hold > 0
             if hold != self.counter.hold_s:
                 self.counter.hold_s = hold
             ok = self.reliable(fr)
@@ -250,12 +251,13 @@ class PracticeScreen:
     def task(self) -> tuple[float | None, float]:
         """``(hit_size_sd, hold_s)`` the current region is drawn and tested at:
         the controller's (a drill's prompt, after adaptive changes) where it
-        gives them, else the target's own size (None) and the screen's hold."""
+        gives them, else the target's own size (None) and the screen's hold.
+        A hold of 0 (judged without one) hides the hold arc."""
         c = self.controller
         size = getattr(c, "hit_size_sd", None)
         hold = getattr(c, "hold_s", None)
         return (None if size is None else float(size),
-                float(hold) if hold is not None and hold > 0 else float(self.options.hold_s))
+                float(hold) if hold is not None and hold >= 0 else float(self.options.hold_s))
 
     def outline_of(self, target: Any) -> np.ndarray:
         """(n, 2) outline in Hz of ``target``: the current one at the task's size."""
@@ -502,7 +504,7 @@ class PracticeScreen:
             dx, dy = float(x), float(y)
         D.dot_with_trail(surface, trail_pts, dx, dy, confidence=self._dot.confidence if visible else 0.0,
                          color=th.dot, edge=th.plot, radius=17 * lay.u)
-        if visible and self.counter.hold_progress > 0:
+        if visible and self.counter.hold_progress > 0 and self.task()[1] > 0:
             col = th.hit if self.counter.hold_progress >= 1 else th.current
             D.arc(surface, dx, dy, 27 * u, self.counter.hold_progress, col, max(3, int(5 * u)))
         surface.set_clip(None)
