@@ -183,7 +183,6 @@ def test_input_lost_mid_session_keeps_frames_and_resumes(tmp_path):
         try:
             _until(lambda: pipe.health().state == "input lost", 5, "'input lost'")
             assert "input lost" in pipe.health().message
-            t_lost = time.monotonic()
             time.sleep(1.0)
         finally:
             vmic.plug()

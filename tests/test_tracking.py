@@ -154,7 +154,7 @@ def test_median5_hanning_keeps_steps_and_drops_outliers():
 
 def test_display_smoother_passes_jumps_and_damps_jitter():
     sm = DisplaySmoother(alpha_min=0.4, jump=0.15)
-    out = [sm.step(np.array([500.0, 1500.0, 2500.0]))]
+    sm.step(np.array([500.0, 1500.0, 2500.0]))
     rng = np.random.default_rng(0)
     jit = 500.0 * (1 + 0.02 * rng.standard_normal(200))
     ys = np.array([sm.step(np.array([j, 1500.0, 2500.0]))[0] for j in jit])

@@ -1,6 +1,5 @@
 """The display loop, first-start caution, hit tone and the practice command."""
 
-import math
 import os
 
 import numpy as np

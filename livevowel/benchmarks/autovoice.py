@@ -22,7 +22,6 @@ from __future__ import annotations
 import sys
 from typing import Callable
 
-import numpy as np
 
 RATE_HZ = 16000
 
