@@ -162,3 +162,13 @@ def test_engine_batch_and_one_frame_paths_agree_where_the_closed_phase_f1_is_use
     assert np.all(np.abs(batch["cand_f"][:, 0] / 310.0 - 1.0) < 0.05), batch["cand_f"][:, 0]
     off = _features(plan, AnalysisSettings(voice="adult_female", closed_phase_below=0.0), x, 0, ks, pitch=True)
     assert np.median(off["cand_f"][:, 0]) > 1.2 * 310.0      # DAP alone reads it high (the limit this fixes)
+
+
+def test_engine_setting_is_checked():
+    from livevowel.dsp.engine import CLOSED_PHASE_ABOVE
+
+    AnalysisSettings(closed_phase_below=0.0)                  # off
+    with pytest.raises(ValueError, match="closed_phase_below"):
+        AnalysisSettings(closed_phase_below=CLOSED_PHASE_ABOVE)   # an empty window of accepted F1
+    with pytest.raises(ValueError, match="closed_phase_below"):
+        AnalysisSettings(closed_phase_below=-1.0)
