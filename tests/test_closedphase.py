@@ -172,3 +172,42 @@ def test_engine_setting_is_checked():
         AnalysisSettings(closed_phase_below=CLOSED_PHASE_ABOVE)   # an empty window of accepted F1
     with pytest.raises(ValueError, match="closed_phase_below"):
         AnalysisSettings(closed_phase_below=-1.0)
+
+
+def _engine_kernel_case(dap_f, *, noise=0.0):
+    """Run the engine's closed-phase F1 step on a pulse-driven all-pole frame (F1 310 Hz, F0 400 Hz)
+    with made-up DAP candidates ``dap_f`` (Hz); returns (replaced, candidates after)."""
+    from livevowel.dsp.engine import CLOSED_PHASE_CLEAN_ERROR, _closed_phase_f1_kernel
+
+    f0 = 400.0
+    y, _ = _pulse_driven(_all_pole(FORMANTS, BANDWIDTHS, RATE), f0, RATE, 900, jitter=0.1, seed=4)
+    y = y + noise * np.std(y) * np.random.default_rng(5).standard_normal(len(y))
+    row = np.ascontiguousarray(y[600:876])                  # n + 1 samples, as the engine passes them
+    cf = np.full(6, np.nan)
+    cb = np.full(6, np.nan)
+    cf[:len(dap_f)] = dap_f
+    cb[:len(dap_f)] = 30.0
+    done = _closed_phase_f1_kernel(row, 0.0, np.ones(275), f0, RATE, 12, 1.3, CLOSED_PHASE_CLEAN_ERROR, 90.0,
+                                   RATE / 2 - 90.0, 700.0, cf, cb)
+    return done, cf
+
+
+def test_engine_step_replaces_a_high_reading_below_1_3_f0():
+    # DAP's reading between H1 and H2 (466 Hz at F0 400 Hz, as measured on women's /i/) -> the true 310 Hz
+    done, cf = _engine_kernel_case([466.0, 2790.0, 3310.0])
+    assert done and abs(cf[0] - 310.0) < 1.0 and list(cf[1:3]) == [2790.0, 3310.0]
+
+
+def test_engine_step_leaves_readings_above_1_3_f0_alone():
+    done, cf = _engine_kernel_case([600.0, 2790.0])
+    assert not done and cf[0] == 600.0
+
+
+def test_engine_step_raises_a_reading_only_on_a_near_exact_fit():
+    # DAP below the closed-phase value: accepted from a clean frame (normalised error ~1e-10) ...
+    done, cf = _engine_kernel_case([290.0, 2790.0])
+    assert done and abs(cf[0] - 310.0) < 1.0
+    # ... but not with white noise 20 dB down (measured: normalised error 0.011, ten times
+    # CLOSED_PHASE_CLEAN_ERROR; its F1 then reads 344 Hz, upwards as in noise generally)
+    done, cf = _engine_kernel_case([290.0, 2790.0], noise=0.1)
+    assert not done and cf[0] == 290.0

@@ -82,16 +82,23 @@ the first two harmonics, 25-75 % high. Where DAP's lowest candidate lies
 below ``closed_phase_below`` (1.3) x F0, multi-cycle closed-phase covariance
 LPC of the frame (Wong, Markel & Gray 1979; :mod:`livevowel.dsp.closedphase`)
 supplies that candidate instead, if its own lowest resonance lies between
-``CLOSED_PHASE_ABOVE`` (0.5) and 1.3 x F0; the information is in the free
-decay of the tract between glottal closures, not in the harmonic levels.
-Same compiled kernel in both paths. Measured with
-``livevowel.benchmarks.dsp.accuracy(quick=False)`` (Peterson & Barney 1952
-vowels from memory, project synthesiser, open quotient 0.6), F0 300-400 Hz,
-DAP alone -> with it: median F1 error / frames > 20 % off, clean: women
-4.21 / 6.7 -> 2.93 / 0.0 %, men 6.53 / 26.7 -> 4.36 / 13.3 %, children
-3.98 / 0.0 -> 3.50 / 0.0 %; in 20 dB white noise: women 4.21 / 8.6 -> 4.20 /
-5.0 %, men 6.15 / 19.6 -> 6.34 / 17.2 %, children 4.23 / 2.8 (unchanged);
-F0 100-250 Hz rows unchanged or better (men clean 2.27 -> 2.08 %). Cost
+``CLOSED_PHASE_ABOVE`` (0.5) and 1.3 x F0 and is either lower than DAP's
+(DAP's error there is upwards) or comes from a near-exact fit (normalised
+error below ``CLOSED_PHASE_CLEAN_ERROR``, 1e-3: in noise the closed-phase
+F1 itself errs upwards, and then only corrects DAP downwards). The
+information is in the free decay of the tract between glottal closures,
+not in the harmonic levels. Same compiled kernel in both paths. Measured
+with ``livevowel.benchmarks.dsp.accuracy(quick=False)`` (Peterson & Barney
+1952 vowels from memory, project synthesiser, open quotient 0.6), F0
+300-400 Hz, DAP alone -> with it: median F1 error / frames > 20 % off,
+clean: women 4.21 / 6.7 -> 2.93 / 0.0 %, men 6.53 / 26.7 -> 4.36 / 13.3 %,
+children 3.98 / 0.0 -> 3.50 / 0.0 %; in 20 dB white noise: women 4.21 /
+8.6 -> 4.21 / 4.4 %, men 6.15 / 19.6 -> 6.21 / 15.6 %, children 4.23 / 2.8
+-> 4.36 / 2.8 % (on three other seed sets: women +0.04..+0.11 and children
++0.05..+0.08 points of median, men -0.02..-0.21; frames > 20 % off women
+-2.4..-4.2, men -4.4..-4.9 points, children 0..+0.3); men's F2 > 20 % off
+in noise 2.4 -> 3.2 %; F0 100-250 Hz rows unchanged or better (men clean
+2.27 -> 2.08 %). Cost
 where it runs: about 0.08 ms per hop (streaming hops on vowels at F0
 350-400 Hz, p99: men's plan 0.30 -> 0.54 ms, women's 0.33 -> 0.35 ms).
 
@@ -205,6 +212,11 @@ AUTO_F0_FEMALE_BELOW_HZ = 250.0
 #: 400 Hz; readings far below F0 are spurious poles of a poorly placed
 #: closed phase.
 CLOSED_PHASE_ABOVE = 0.5
+#: A closed-phase F1 above DAP's lowest candidate is taken only where the
+#: fit's normalised prediction error on its closed-phase samples is below
+#: this (the closed phases are predicted to 30 dB: a clean signal); a lower
+#: one is taken at any error, since DAP reads F1 below F0 too high.
+CLOSED_PHASE_CLEAN_ERROR = 1e-3
 
 _AUTO_DEFAULT = "adult_female"
 _DAP_NFFT = 1024           # FFT length of DAP's harmonic spectrum (at least; longer frames get more)
@@ -268,7 +280,9 @@ class AnalysisSettings:
         of F0, closed-phase covariance LPC of the frame
         (:mod:`livevowel.dsp.closedphase`, Wong, Markel & Gray 1979) gives
         that candidate instead, if its own lowest resonance lies between
-        ``CLOSED_PHASE_ABOVE`` and this multiple of F0. 0 turns it off.
+        ``CLOSED_PHASE_ABOVE`` and this multiple of F0 and is lower than
+        DAP's or from a near-exact fit (``CLOSED_PHASE_CLEAN_ERROR``).
+        0 turns it off.
         See the module notes (harmonic attraction) for the measurements.
     f0_min_hz, f0_max_hz : float
         F0 search range in Hz.
@@ -683,8 +697,8 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
         cf, cb = np.require(cf, requirements="CW"), np.require(cb, requirements="CW")
         _closed_phase_rows_kernel(np.ascontiguousarray(formant_rows), np.require(f0, np.float64, "CW"),
                                   use.astype(np.bool_), plan.coef, plan.taper, float(plan.rate_hz), plan.order,
-                                  float(s.closed_phase_below), float(plan.min_hz), float(max_hz),
-                                  _max_bw(s), cf, cb)
+                                  float(s.closed_phase_below), float(CLOSED_PHASE_CLEAN_ERROR), float(plan.min_hz),
+                                  float(max_hz), _max_bw(s), cf, cb)
     out["cand_f"], out["cand_b"] = cf, cb
     return out
 
@@ -734,8 +748,9 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
     cf, cb = _candidates_one(a, plan.rate_hz, plan.min_hz, max_hz, s.max_bandwidth_hz)
     if use and m >= 1 and s.closed_phase_below > 0:
         _closed_phase_f1_kernel(seg[plan.ext: plan.ext + plan.n + 1], plan.coef, plan.taper, f0,
-                                float(plan.rate_hz), plan.order, float(s.closed_phase_below), float(plan.min_hz),
-                                float(max_hz), _max_bw(s), cf[0], cb[0])
+                                float(plan.rate_hz), plan.order, float(s.closed_phase_below),
+                                float(CLOSED_PHASE_CLEAN_ERROR), float(plan.min_hz), float(max_hz), _max_bw(s),
+                                cf[0], cb[0])
     out["cand_f"], out["cand_b"] = cf, cb
     return out
 
@@ -745,17 +760,17 @@ def _max_bw(s: AnalysisSettings) -> float:
 
 
 @jit
-def _closed_phase_rows_kernel(rows, f0, use, coef, taper, rate, p, below, min_hz, max_hz, max_bw,
+def _closed_phase_rows_kernel(rows, f0, use, coef, taper, rate, p, below, clean, min_hz, max_hz, max_bw,
                               cand_f, cand_b):  # pragma: no cover - compiled
     """:func:`_closed_phase_f1_kernel` for every row ``i`` with ``use[i]`` (one call for a batch)."""
     for i in range(rows.shape[0]):
         if use[i]:
-            _closed_phase_f1_kernel(rows[i], coef, taper, f0[i], rate, p, below, min_hz, max_hz, max_bw,
+            _closed_phase_f1_kernel(rows[i], coef, taper, f0[i], rate, p, below, clean, min_hz, max_hz, max_bw,
                                     cand_f[i], cand_b[i])
 
 
 @jit
-def _closed_phase_f1_kernel(row, coef, taper, f0, rate, p, below, min_hz, max_hz, max_bw,
+def _closed_phase_f1_kernel(row, coef, taper, f0, rate, p, below, clean, min_hz, max_hz, max_bw,
                             cand_f, cand_b):  # pragma: no cover - compiled
     """Closed-phase F1 for one frame's DAP candidates (``cand_f, cand_b``, ascending, NaN-padded; in place).
 
@@ -764,7 +779,8 @@ def _closed_phase_f1_kernel(row, coef, taper, f0, rate, p, below, min_hz, max_hz
     on the frame's ``n + 1`` raw samples ``row`` (mean removed and
     pre-emphasised as in :func:`_condition_kernel`, not tapered); its lowest
     resonance replaces that candidate (frequency and bandwidth) when it lies
-    in ``CLOSED_PHASE_ABOVE x F0 .. below x F0``. Returns whether it did.
+    in ``CLOSED_PHASE_ABOVE x F0 .. below x F0`` and is below it or the fit's
+    normalised error is below ``clean``. Returns whether it did.
     """
     if not (math.isfinite(f0) and f0 > 0 and cand_f[0] < below * f0):
         return False
@@ -787,7 +803,7 @@ def _closed_phase_f1_kernel(row, coef, taper, f0, rate, p, below, min_hz, max_hz
     if not _candidates_kernel(a, rate, min_hz, max_hz, max_bw, fc, bc, z):
         return False
     f = fc[0]
-    if not (CLOSED_PHASE_ABOVE * f0 <= f < below * f0):
+    if not (CLOSED_PHASE_ABOVE * f0 <= f < below * f0 and (f < cand_f[0] or err < clean)):
         return False
     cand_f[0] = f
     cand_b[0] = bc[0]
