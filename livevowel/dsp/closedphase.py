@@ -234,13 +234,14 @@ def _instants_kernel(y, a0, period, out):  # pragma: no cover - compiled
 
 
 @jit
-def _cholesky_solve(m, b, x):  # pragma: no cover - compiled
-    """Solve ``m x = b`` for a symmetric positive-definite ``m`` (p x p); False if not positive definite."""
+def _cholesky_solve(m, load, b, x):  # pragma: no cover - compiled
+    """Solve ``(m + load I) x = b`` for a symmetric positive-definite ``m`` (p x p; only its lower
+    triangle is read); False if not positive definite."""
     p = m.shape[0]
     low = np.zeros((p, p))
     for i in range(p):
         for j in range(i + 1):
-            acc = m[i, j]
+            acc = m[i, j] + (load if i == j else 0.0)
             for k in range(j):
                 acc -= low[i, k] * low[j, k]
             if i == j:
@@ -264,37 +265,29 @@ def _cholesky_solve(m, b, x):  # pragma: no cover - compiled
 
 
 @jit
-def _covariance_fit(y, inst, cnt, start, length, p, phi, psi, sol, a):  # pragma: no cover - compiled
-    """Covariance LPC on the samples ``inst[i] + start .. + length - 1`` (those in ``p .. N - 1``)
-    into ``a`` (p + 1); returns the normalised error (inf if too few samples or singular)."""
-    big_n = y.shape[0]
-    phi[:, :] = 0.0
-    psi[:] = 0.0
-    psi0 = 0.0
-    rows = 0
-    for i in range(cnt):
-        for t in range(inst[i] + start, inst[i] + start + length):
-            if t < p or t >= big_n:
-                continue
-            rows += 1
-            yt = y[t]
-            psi0 += yt * yt
-            for j in range(1, p + 1):
-                yj = y[t - j]
-                psi[j - 1] -= yt * yj
-                for k in range(1, j + 1):
-                    phi[j - 1, k - 1] += yj * y[t - k]
+def _add_equation(y, t, p, sign, phi, psi):  # pragma: no cover - compiled
+    """Add (``sign`` +1) or remove (-1) the equation of sample ``t`` to the lower triangle of
+    ``phi[j, k] = sum y[t-1-j] y[t-1-k]`` and to ``psi[j] = -sum y[t] y[t-1-j]``; returns
+    ``sign * y[t]^2`` (its share of the signal energy)."""
+    yt = y[t]
+    for j in range(1, p + 1):
+        yj = sign * y[t - j]
+        psi[j - 1] -= yt * yj
+        for k in range(1, j + 1):
+            phi[j - 1, k - 1] += yj * y[t - k]
+    return sign * yt * yt
+
+
+@jit
+def _covariance_solve(phi, psi, psi0, rows, p, sol, a):  # pragma: no cover - compiled
+    """Covariance LPC from the accumulated normal equations into ``a`` (p + 1); returns the
+    normalised error (inf if fewer than ``2 p`` equations or singular)."""
     if rows < 2 * p or not psi0 > 0:
         return math.inf
     tr = 0.0
     for j in range(p):
-        for k in range(j):
-            phi[k, j] = phi[j, k]
         tr += phi[j, j]
-    load = 1e-10 * tr / p
-    for j in range(p):
-        phi[j, j] += load
-    if not _cholesky_solve(phi, psi, sol):
+    if not _cholesky_solve(phi, 1e-10 * tr / p, psi, sol):
         return math.inf
     e = psi0
     for j in range(p):
@@ -325,13 +318,32 @@ def _closed_phase_kernel(y, taper, f0, rate, p, closed_fraction, max_shift_fract
         return math.inf
     length = max(int(round(closed_fraction * period)), 2)
     shifts = int(round(max_shift_fraction * period))
-    phi = np.empty((p, p))
-    psi = np.empty(p)
+    # the equations of the samples inst[i] + d .. + length - 1 (those in p .. N - 1), for
+    # d = 0, 1, ...: each step drops the first sample of every stretch and adds the next one
+    phi = np.zeros((p, p))
+    psi = np.zeros(p)
+    psi0 = 0.0
+    rows = 0
+    for i in range(cnt):
+        for t in range(inst[i], inst[i] + length):
+            if p <= t < big_n:
+                psi0 += _add_equation(y, t, p, 1.0, phi, psi)
+                rows += 1
     sol = np.empty(p)
     trial = np.empty(p + 1)
     best = math.inf
     for d in range(shifts + 1):
-        e = _covariance_fit(y, inst, cnt, d, length, p, phi, psi, sol, trial)
+        if d > 0:
+            for i in range(cnt):
+                t = inst[i] + d - 1
+                if p <= t < big_n:
+                    psi0 += _add_equation(y, t, p, -1.0, phi, psi)
+                    rows -= 1
+                t += length
+                if p <= t < big_n:
+                    psi0 += _add_equation(y, t, p, 1.0, phi, psi)
+                    rows += 1
+        e = _covariance_solve(phi, psi, psi0, rows, p, sol, trial)
         if e < best:
             best = e
             a[:] = trial
