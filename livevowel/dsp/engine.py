@@ -98,9 +98,10 @@ children 3.98 / 0.0 -> 3.50 / 0.0 %; in 20 dB white noise: women 4.21 /
 +0.05..+0.08 points of median, men -0.02..-0.21; frames > 20 % off women
 -2.4..-4.2, men -4.4..-4.9 points, children 0..+0.3); men's F2 > 20 % off
 in noise 2.4 -> 3.2 %; F0 100-250 Hz rows unchanged or better (men clean
-2.27 -> 2.08 %). Cost
-where it runs: about 0.08 ms per hop (streaming hops on vowels at F0
-350-400 Hz, p99: men's plan 0.30 -> 0.54 ms, women's 0.33 -> 0.35 ms).
+2.27 -> 2.08 %). Cost where it runs: about 0.045 ms of CPU per frame
+(median; p99 0.075 ms; order 12-14, 2-core machine); streaming hops on
+vowels at F0 350-400 Hz stayed under 0.75 ms at p99 with it (0.3-0.45 ms
+without, depending on the machine's load).
 
 Known limits: F1 midway
 between two widely spaced harmonics (e.g. 470 Hz at F0 = 300 Hz) is still
