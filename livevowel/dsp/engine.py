@@ -112,20 +112,21 @@ short closed phase), and more than 20 % off (mostly high) in a third of
 the frames at 30 dB SNR (the rule above keeps the engine's F1 from
 following it upwards). Measured on the same vowels at F0 300-400 Hz
 (median F1 error / frames > 20 % off, DAP alone -> with it): other open
-quotients 0.4-0.8 and aspiration noise (-20, -10 dB) better or equal for
-both groups (e.g. women at open quotient 0.4: 14.2 / 31.7 -> 3.1 / 21.6 %);
-a 100 Hz high-pass channel no different from the clean case; but
-reverberation fills the closed phase with earlier excitation, which the
-fit takes for the tract (women, exponential tail of 50 ms, direct-to-
-reverberant ratio about +3.5 dB: 5.00 / 6.1 -> 5.67 / 6.5 %; about -8 dB:
-7.55 / 14.1 -> 8.08 / 16.5 %; men's outliers still fall) and so does a
-phase-distorting channel (two resonant all-pass sections at 500 and
-2000 Hz, women: 4.28 / 6.8 -> 4.65 / 10.7 %); its own error does not
-flag those frames. A wrong F0 misplaces the closed phases. Men's /ɔ/ (F1 570, F2 840 Hz) at F0
-350-400 Hz still reads F1 on 2 x F0, /ʊ/ (F1 440 Hz) at F0 300 Hz likewise
-and /ɝ/ (F1 490 Hz) at 350 Hz 20 % high (DAP's lowest candidate is above
-1.3 x F0 there, so the closed-phase fit is not asked): the remaining men's
-outliers at high F0.
+quotients 0.4-0.8 and aspiration noise (-20, -10 dB) better for both
+groups or within 0.11 point of median (women at open quotient 0.7: 2.74 /
+3.4 -> 2.85 / 3.2 %; at 0.4: 14.2 / 31.7 -> 3.1 / 21.6 %); behind a 100 Hz
+high-pass channel the same gain as without; but reverberation fills the
+closed phase with earlier excitation, which the fit takes for the tract
+(exponential tail of 50 ms; direct-to-reverberant ratio about +3.5 dB:
+women 5.00 / 6.1 -> 5.67 / 6.5 %, men 7.99 / 20.8 -> 7.93 / 14.2 %; about
+-8 dB: women 7.55 / 14.1 -> 8.08 / 16.5 %, men 9.31 / 24.8 -> 9.80 / 24.8 %),
+and so does a phase-distorting channel (two resonant all-pass sections at
+500 and 2000 Hz, women: 4.28 / 6.8 -> 4.65 / 10.7 %); the fit's own error
+does not flag those frames. A wrong F0 misplaces the closed phases. Men's
+/ɔ/ (F1 570, F2 840 Hz) at F0 350-400 Hz still reads F1 on 2 x F0, /ʊ/ (F1
+440 Hz) at F0 300 Hz likewise and /ɝ/ (F1 490 Hz) at 350 Hz 20 % high
+(DAP's lowest candidate is above 1.3 x F0 there, so the closed-phase fit
+is not asked): the remaining men's outliers at high F0.
 """
 
 from __future__ import annotations
