@@ -108,10 +108,10 @@ def test_clean_outliers_300_to_400_hz(group):
 
 
 # Measured with livevowel.dsp.dap's censored harmonics (noisy / clean median, x):
-# men 100-160 Hz F1 1.06 / 0.91 % (1.17), F2 0.39 / 0.38 % (1.02); men 170-240 Hz
-# F1 2.81 / 2.40 % (1.17), F2 0.56 / 0.46 % (1.22); women 180-250 Hz F1 2.79 /
-# 2.48 % (1.13), F2 0.56 / 0.39 % (1.45); children 110-240 Hz F1 1.00 / 0.90 %
-# (1.11), F2 0.34 / 0.30 % (1.12; before: F2 2.48 x, 8.5 % of frames > 20 % off,
+# men 100-160 Hz F1 0.94 / 0.89 % (1.05), F2 0.36 / 0.44 % (0.83); men 170-240 Hz
+# F1 2.82 / 2.39 % (1.18), F2 0.56 / 0.46 % (1.21); women 180-250 Hz F1 2.82 /
+# 2.50 % (1.13), F2 0.56 / 0.38 % (1.46); children 110-240 Hz F1 0.97 / 0.96 %
+# (1.01), F2 0.35 / 0.30 % (1.19; before: F2 2.48 x, 8.5 % of frames > 20 % off,
 # F1 and F2 merged in children's /ɔ/ and /u/). Until then a noisy median under
 # 1 % of the formant passed whatever the ratio.
 @pytest.mark.parametrize("group,f0s", [("men", (100, 130, 160)), ("men", (170, 200, 240)),
