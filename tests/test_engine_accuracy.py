@@ -13,9 +13,9 @@ the goals are asserted directly:
   than 20 % off there <= 2 % (for F1 below F0, women's /i/ at F0 350-400
   Hz, thanks to the closed-phase F1 candidate);
 * with white noise at 20 dB SNR the median F1 and F2 errors are at most
-  1.5 x the measured clean errors (or 1 % of the formant, whichever is
-  larger; see NOISE_FLOOR_FRACTION) -- the looser check against 1.5 x the
-  clean goal is kept for men and women;
+  1.5 x the measured clean errors (men, women and children at F0 100-250 Hz;
+  children 250-350 Hz) -- the looser check against 1.5 x the clean goal is
+  kept for men and women;
 * the default method beats plain autocorrelation LPC on the same frames at high F0.
 """
 
@@ -104,21 +104,20 @@ def test_clean_outliers_300_to_400_hz(group):
     assert np.mean((e1 > 0.2) | (e2 > 0.2)) <= 0.02
 
 
-#: Absolute floor of the noise-cost limit, as a fraction of the formant: a
-#: noisy median error under 1 % passes whatever the ratio. The clean medians
-#: of F2 are ~0.2-0.4 % (2-5 Hz), where 1.5 x is a few hertz and the ratio
-#: measures rounding more than noise; 1 % is a third of the 3 % goal and
-#: below the difference limen for formant frequency (~3-5 %, Flanagan 1955,
-#: from memory), so it cannot hide an error a listener or the display shows.
-NOISE_FLOOR_FRACTION = 0.01
-
-
-@pytest.mark.parametrize("group,f0s", [("men", (100, 130, 160)), ("women", (180, 220, 250))])
+# Measured with livevowel.dsp.dap's censored harmonics (noisy / clean median, x):
+# men 100-160 Hz F1 0.94 / 0.89 % (1.05), F2 0.36 / 0.44 % (0.83); men 170-240 Hz
+# F1 2.82 / 2.39 % (1.18), F2 0.56 / 0.46 % (1.21); women 180-250 Hz F1 2.82 /
+# 2.50 % (1.13), F2 0.56 / 0.38 % (1.46); children 110-240 Hz F1 0.97 / 0.96 %
+# (1.01), F2 0.35 / 0.30 % (1.19; before: F2 2.48 x, 8.5 % of frames > 20 % off,
+# F1 and F2 merged in children's /ɔ/ and /u/). Until then a noisy median under
+# 1 % of the formant passed whatever the ratio.
+@pytest.mark.parametrize("group,f0s", [("men", (100, 130, 160)), ("men", (170, 200, 240)),
+                                       ("women", (180, 220, 250)), ("children", (110, 170, 240))])
 def test_20_db_noise_costs_at_most_half_again_of_measured_clean(group, f0s):
     c1, c2 = band(group, f0s)
     n1, n2 = band(group, f0s, snr_db=20.0)
     for noisy, clean in ((np.median(n1), np.median(c1)), (np.median(n2), np.median(c2))):
-        assert noisy <= max(1.5 * clean, NOISE_FLOOR_FRACTION), (noisy, clean)
+        assert noisy <= 1.5 * clean, (noisy, clean)
     assert np.mean((n1 > 0.2) | (n2 > 0.2)) <= 0.02
 
 
