@@ -86,6 +86,8 @@ SCHEMA: dict[str, dict[str, Key]] = {
                       "(autocorrelation below dap_above_hz, dap above)",
                       kind=str, choices=("dap", "autocorrelation", "burg", "weighted", "hybrid")),
         "dap_above_hz": Key(160.0, "hybrid method only: F0 in Hz from which the dap fit is used", min=0, max=1000),
+        "threads": Key(0, "offline analysis of one input: threads sharing the work (0: one per core, at most 2; "
+                       "1: none)", min=0, max=64, kind=int),
         "closed_phase_below": Key(1.3, "dap only: where the lowest formant reads below this many times F0 (F1 "
                                   "near or under F0, high voices), closed-phase LPC may give it instead; 0 turns "
                                   "it off (e.g. in a reverberant room)", min=0, max=4),

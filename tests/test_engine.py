@@ -298,3 +298,19 @@ def test_confidence_is_high_on_clean_vowels_and_lower_in_noise():
     assert np.median(clean.confidence[clean.voiced]) > 0.6
     assert np.all((clean.confidence >= 0) & (clean.confidence <= 1))
     assert np.median(noisy.confidence[noisy.voiced]) < np.median(clean.confidence[clean.voiced])
+
+
+@pytest.mark.parametrize("voice", ["auto", "child"])
+def test_threads_share_the_work_without_changing_a_bit(voice):
+    # Peterson & Barney (1952) means (from memory): a man's /ɑ/, a woman's /i/, a child's /u/, 2 s each
+    parts = [synthesize_vowel(formants_hz=fm, f0_hz=f0, duration_s=2.0, rate_hz=16000, voice=v, seed=k)
+             for k, (fm, f0, v) in enumerate((((730, 1090, 2440), 120.0, "man"), ((310, 2790, 3310), 220.0, "woman"),
+                                               ((430, 1170, 3260), 300.0, "child")))]
+    x = np.concatenate(parts)
+    one = analyze(x, 16000, settings=AnalysisSettings(voice=voice, threads=1)).frames
+    for n in (2, 3):
+        many = analyze(x, 16000, settings=AnalysisSettings(voice=voice, threads=n)).frames
+        for name in ("voiced", "f0_hz", "f1_hz", "f2_hz", "f3_hz", "b1_hz", "level_db", "confidence"):
+            np.testing.assert_array_equal(getattr(many, name), getattr(one, name), err_msg=name)
+    with pytest.raises(ValueError, match="threads"):
+        AnalysisSettings(threads=-1)

@@ -212,37 +212,39 @@ def streaming_hop_times(x: np.ndarray, *, settings=None, block: int = 160) -> tu
 
 
 def offline_speed(x: np.ndarray, *, repeat: int) -> dict[str, float]:
-    """Real-time factors of ``analyze`` and of the plain loop on ``x``, and their ratio."""
-    from livevowel.dsp.engine import analyze
+    """Real-time factors of ``analyze`` (default threads, and one thread) and of
+    the plain loop on ``x``, and their ratios. The four are timed in turn within
+    each repeat, so a change of load on the machine falls on all of them."""
+    from livevowel.dsp.engine import AnalysisSettings, _thread_count, analyze
 
     dur = len(x) / RATE_HZ
-    t_eng, c_eng = [], []
-    res = None
+    res = analyze(x, RATE_HZ)
+    one = AnalysisSettings(threads=1)
+    names = ("engine", "engine_1", "plain", "mixed")
+    wall: dict[str, list[float]] = {k: [] for k in names}
+    cpu: dict[str, list[float]] = {k: [] for k in names}
+    runs = {
+        "engine": lambda: analyze(x, RATE_HZ),
+        "engine_1": lambda: analyze(x, RATE_HZ, settings=one),
+        "plain": lambda: plain_loop(x, rate_hz=RATE_HZ, analysis_rate_hz=res.analysis_rate_hz, order=res.order),
+        "mixed": lambda: plain_loop(x, rate_hz=RATE_HZ, analysis_rate_hz=res.analysis_rate_hz, order=res.order,
+                                    pitch="livevowel"),
+    }
     for _ in range(repeat):
-        c0, t0 = time.process_time(), time.perf_counter()
-        res = analyze(x, RATE_HZ)
-        t_eng.append(time.perf_counter() - t0)
-        c_eng.append(time.process_time() - c0)
-    t_plain, c_plain = [], []
-    for _ in range(repeat):
-        c0, t0 = time.process_time(), time.perf_counter()
-        plain_loop(x, rate_hz=RATE_HZ, analysis_rate_hz=res.analysis_rate_hz, order=res.order)
-        t_plain.append(time.perf_counter() - t0)
-        c_plain.append(time.process_time() - c0)
-    t_mixed, c_mixed = [], []
-    for _ in range(repeat):
-        c0, t0 = time.process_time(), time.perf_counter()
-        plain_loop(x, rate_hz=RATE_HZ, analysis_rate_hz=res.analysis_rate_hz, order=res.order, pitch="livevowel")
-        t_mixed.append(time.perf_counter() - t0)
-        c_mixed.append(time.process_time() - c0)
-    rtf_eng = dur / float(np.median(t_eng))
-    rtf_plain = dur / float(np.median(t_plain))
-    cpu_eng = dur / float(np.median(c_eng))
-    cpu_plain = dur / float(np.median(c_plain))
-    return {"audio_s": dur, "engine_rtf": rtf_eng, "plain_rtf": rtf_plain, "ratio": rtf_eng / rtf_plain,
-            "engine_cpu_rtf": cpu_eng, "plain_cpu_rtf": cpu_plain, "cpu_ratio": cpu_eng / cpu_plain,
-            "plain_livevowel_yin_rtf": dur / float(np.median(t_mixed)),
-            "plain_livevowel_yin_cpu_rtf": dur / float(np.median(c_mixed)),
+        for k in names:
+            c0, t0 = time.process_time(), time.perf_counter()
+            runs[k]()
+            wall[k].append(time.perf_counter() - t0)
+            cpu[k].append(time.process_time() - c0)
+    rtf = {k: dur / float(np.median(wall[k])) for k in names}
+    crtf = {k: dur / float(np.median(cpu[k])) for k in names}
+    n_frames = int(round(dur / 0.010))
+    return {"audio_s": dur, "engine_rtf": rtf["engine"], "plain_rtf": rtf["plain"],
+            "ratio": rtf["engine"] / rtf["plain"], "engine_cpu_rtf": crtf["engine"], "plain_cpu_rtf": crtf["plain"],
+            "cpu_ratio": crtf["engine"] / crtf["plain"], "threads": _thread_count(AnalysisSettings(), n_frames),
+            "engine_1_rtf": rtf["engine_1"], "engine_1_cpu_rtf": crtf["engine_1"],
+            "ratio_1": rtf["engine_1"] / rtf["plain"],
+            "plain_livevowel_yin_rtf": rtf["mixed"], "plain_livevowel_yin_cpu_rtf": crtf["mixed"],
             "analysis_rate_hz": float(res.analysis_rate_hz), "order": int(res.order), "method": res.method}
 
 
@@ -411,7 +413,9 @@ def run(*, quick: bool, out: Callable[[str], None]) -> dict:
         f"engine method {sp['method']}")
     out(f"  {'path':<40}{'x real time':>12}{'(CPU time)':>12}")
     out(f"  {'analyze (batched, Viterbi tracking)':<40}{sp['engine_rtf']:>12.1f}{sp['engine_cpu_rtf']:>12.1f}"
-        f"   goal >= {GOAL_RTF:g}x: {verdict(ok_rtf)}")
+        f"   goal >= {GOAL_RTF:g}x: {verdict(ok_rtf)}   ({sp['threads']} threads)")
+    out(f"  {'  the same on one thread':<40}{sp['engine_1_rtf']:>12.1f}{sp['engine_1_cpu_rtf']:>12.1f}"
+        f"   (ratio to the plain loop {sp['ratio_1']:.2f}; for comparison)")
     out(f"  {'plain per-frame loop (numpy.roots)':<40}{sp['plain_rtf']:>12.1f}{sp['plain_cpu_rtf']:>12.1f}")
     out(f"  {'ratio engine / plain loop':<40}{sp['ratio']:>12.2f}{sp['cpu_ratio']:>12.2f}"
         f"   goal >= {GOAL_RATIO:g}x: {verdict(ok_ratio)}")
@@ -419,7 +423,8 @@ def run(*, quick: bool, out: Callable[[str], None]) -> dict:
         f"{sp['plain_livevowel_yin_cpu_rtf']:>12.1f}   (ratio "
         f"{sp['engine_rtf'] / sp['plain_livevowel_yin_rtf']:.2f}; for comparison, no goal)")
     out("  (x real time = seconds of audio per wall-clock second; the CPU-time column divides by this"
-        " process's CPU seconds instead, which other load on the machine does not inflate)")
+        " process's CPU seconds instead, which other load on the machine does not inflate; with threads"
+        " it adds up the cores' time, so it reads as one core's speed; the plain loop is one thread)")
     figures["offline"] = dict(sp, rtf_meets_goal=ok_rtf, ratio_meets_goal=ok_ratio)
 
     out("")

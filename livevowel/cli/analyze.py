@@ -158,8 +158,10 @@ def run(args: argparse.Namespace) -> int:
     else:
         from concurrent.futures import ProcessPoolExecutor
 
+        # the cores already share the files: one thread per file
+        values = dict(settings.values, analysis=dict(settings.values["analysis"], threads=1))
         with ProcessPoolExecutor(max_workers=jobs) as pool:
-            futs = [pool.submit(_analyse_one, str(f), settings.values, args.causal, args.targets) for f in files]
+            futs = [pool.submit(_analyse_one, str(f), values, args.causal, args.targets) for f in files]
             for f, fut in zip(files, futs):
                 results.append(fut.result())
                 progress.step(f.name)

@@ -233,6 +233,10 @@ CLOSED_PHASE_CLEAN_ERROR = 1e-3
 
 _AUTO_DEFAULT = "adult_female"
 _DAP_NFFT = 1024           # FFT length of DAP's harmonic spectrum (at least; longer frames get more)
+#: Offline analysis: at most this many threads by default (``AnalysisSettings.threads=0``) ...
+MAX_THREADS = 2
+#: ... each with at least this many frames (smaller batches are not worth a thread).
+MIN_FRAMES_PER_THREAD = 200
 _AUTO_OFFLINE_FRAMES = 150    # offline auto: voiced frames the decision looks at, evenly spaced (3x the live path's 0.5 s)
 _GATE_MARGIN_DB = 6.0      # voicing_hysteresis default margin_db, used by both paths
 _LOWEST_RATE_HZ = 8000
@@ -312,6 +316,11 @@ class AnalysisSettings:
         (1952) vowels (from memory) from the project synthesiser, three groups,
         F0 100-400 Hz, clean and 20 dB SNR, three seed sets: frames with F0
         more than 10 % off 68/66/70 (0.05) -> 32/38/41 (0.04).
+    threads : int
+        Offline :func:`analyze` only: threads that share the per-frame work of
+        a long input (the compiled kernels release the GIL; every frame is
+        computed on its own, so the result does not depend on the split).
+        0: as many as the machine has cores, at most ``MAX_THREADS``; 1: none.
     voicing_on, voicing_off : float
         Aperiodicity below which voicing turns on / above which it turns off.
     voicing_floor_db : float
@@ -347,6 +356,7 @@ class AnalysisSettings:
     f0_max_hz: float = 700.0
     yin_threshold: float = 0.1
     yin_skip_margin: float = 0.04
+    threads: int = 0
     voicing_on: float = 0.25
     voicing_off: float = 0.4
     voicing_floor_db: float = -50.0
@@ -386,6 +396,8 @@ class AnalysisSettings:
         if not (self.closed_phase_below == 0 or CLOSED_PHASE_ABOVE < self.closed_phase_below <= 4):
             bad(f"closed_phase_below {self.closed_phase_below} must be 0 (off) or in "
                 f"{CLOSED_PHASE_ABOVE:g}..4 (a multiple of F0)")
+        if not (isinstance(self.threads, (int, np.integer)) and 0 <= self.threads <= 64):
+            bad(f"threads {self.threads!r} must be a whole number 0..64 (0: as many as cores)")
         if not (0 < self.f0_min_hz < self.f0_max_hz):
             bad("need 0 < f0_min_hz < f0_max_hz")
         if not (0 < self.voicing_on <= self.voicing_off):
@@ -915,6 +927,31 @@ def _prepare(samples: Any, rate_hz: Any, settings: AnalysisSettings | None) -> t
     return to_mono_float(samples), rate, s
 
 
+def _thread_count(s: AnalysisSettings, n_frames: int) -> int:
+    import os
+
+    want = int(s.threads) if s.threads else min(MAX_THREADS, os.cpu_count() or 1)
+    return max(1, min(want, n_frames // MIN_FRAMES_PER_THREAD))
+
+
+def _features_threads(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np.ndarray, *,
+                      threads: int, f0_hz: np.ndarray | None = None, **kw: Any) -> dict[str, np.ndarray]:
+    """:func:`_features` of ``ks`` in ``threads`` contiguous parts at once (offline analysis).
+
+    Every frame is measured on its own (no state passes between frames in a
+    batch), so the parts joined are the whole batch's result, bit for bit."""
+    ks = np.asarray(ks, dtype=np.int64)
+    if threads <= 1 or len(ks) < 2 * MIN_FRAMES_PER_THREAD:
+        return _features(plan, s, x, base, ks, f0_hz=f0_hz, **kw)
+    from concurrent.futures import ThreadPoolExecutor
+
+    cuts = np.linspace(0, len(ks), threads + 1).round().astype(np.int64)
+    parts = [(ks[a:b], None if f0_hz is None else np.asarray(f0_hz)[a:b]) for a, b in zip(cuts[:-1], cuts[1:])]
+    with ThreadPoolExecutor(max_workers=threads) as pool:
+        got = list(pool.map(lambda p: _features(plan, s, x, base, p[0], f0_hz=p[1], **kw), parts))
+    return {k: np.concatenate([g[k] for g in got]) for k in got[0]}
+
+
 def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None = None,
             causal: bool = False) -> AnalysisResult:
     """Analyse a whole signal.
@@ -957,9 +994,10 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
     if n_frames == 0:
         warns.append(f"input of {len(x)} samples is shorter than one {1e3 * s.window_s:g} ms window; no frames")
     ks = np.arange(n_frames)
+    threads = _thread_count(s, n_frames)
     # first pass: F0, level and voicing (the adult_female plan for auto); formant
     # candidates follow for voiced frames only (the tracker reads no others)
-    feat = _features(plan, s, xa, 0, ks, pitch=True, formants=False)
+    feat = _features_threads(plan, s, xa, 0, ks, threads=threads, pitch=True, formants=False)
     gate_level, _ = relative_level(feat["level_db"], s, None)
     voiced, _ = voicing_hysteresis(feat["aper"], gate_level, on_threshold=s.voicing_on,
                                    off_threshold=s.voicing_off, floor_db=s.voicing_floor_db,
@@ -973,7 +1011,7 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
 
     def measure(pl: _Plan, xx: np.ndarray, frames: np.ndarray, cf: np.ndarray, cb: np.ndarray) -> None:
         if len(frames):
-            got = _features(pl, s, xx, 0, frames, pitch=False, f0_hz=feat["f0_hz"][frames])
+            got = _features_threads(pl, s, xx, 0, frames, threads=threads, pitch=False, f0_hz=feat["f0_hz"][frames])
             cf[frames], cb[frames] = got["cand_f"], got["cand_b"]
 
     voice = voice0
