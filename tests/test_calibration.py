@@ -32,6 +32,17 @@ def render(path, said, *, lead_s=1.2, vowel_s=0.5, gap_s=1.3, factor=FACTOR):
     sf.write(path, x, RATE, subtype="FLOAT")
 
 
+def calibrate(tmp_path, capsys, said, speaker):
+    """Render ``said``, run ``targets calibrate --listen`` on it: (exit status, stdout, stderr, profile or None)."""
+    take = tmp_path / f"{speaker}.wav"
+    render(take, said)
+    prof = tmp_path / f"{speaker}.yaml"
+    rc = main(["targets", "calibrate", str(prof), "--speaker", speaker, "--group", "adult_female",
+               "--set", "gae-men", "--listen", "--source", f"file:{take}", "--pace", "0"])
+    cap = capsys.readouterr()
+    return rc, cap.out, cap.err, (yaml.safe_load(prof.read_text()) if prof.exists() else None)
+
+
 def test_corner_vowels_of_the_shipped_sets():
     from livevowel.session.calibration import corner_vowels
     from livevowel.targets import load_target_set
@@ -40,18 +51,12 @@ def test_corner_vowels_of_the_shipped_sets():
 
 
 def test_listen_measures_each_vowel_and_fits_the_known_factor(tmp_path, capsys):
-    take = tmp_path / "calib.wav"
     # the second "lot" is too short (70 ms): not used, asked again, and the next one is used
-    render(take, [("fleece", 0.5), ("fleece", 0.5), ("lot", 0.5), ("lot", 0.07), ("lot", 0.5),
-                  ("goose", 0.5), ("goose", 0.5)])
-    prof = tmp_path / "s31.yaml"
-    rc = main(["targets", "calibrate", str(prof), "--speaker", "S31", "--group", "adult_female", "--set", "gae-men",
-               "--listen", "--source", f"file:{take}", "--pace", "0"])
-    out = capsys.readouterr().out
+    rc, out, _, data = calibrate(tmp_path, capsys, [("fleece", 0.5), ("fleece", 0.5), ("lot", 0.5), ("lot", 0.07),
+                                         ("lot", 0.5), ("goose", 0.5), ("goose", 0.5)], "S31")
     assert rc == 0, out
     # six prompts; the flagged take is answered with "again" and the same prompt stands
     assert out.count("say /") == 6 and out.count("again, please") == 1 and "too_short" in out
-    data = yaml.safe_load(prof.read_text())
     assert [t["vowel"] for t in data["tokens"]] == ["fleece", "fleece", "lot", "lot", "goose", "goose"]
     # the known answer: every formant x 1.15 (engine error on these vowels is ~1-3 %, from the accuracy tables)
     tr = data["transform"]
@@ -61,17 +66,11 @@ def test_listen_measures_each_vowel_and_fits_the_known_factor(tmp_path, capsys):
 
 
 def test_a_take_of_the_wrong_vowel_is_refused_and_asked_again(tmp_path, capsys):
-    take = tmp_path / "wrong.wav"
     # LOT said for the second FLEECE take: no speaker's /i/ sounds like that, so it is refused
-    render(take, [("fleece", 0.5), ("lot", 0.5), ("fleece", 0.5), ("lot", 0.5), ("lot", 0.5),
-                  ("goose", 0.5), ("goose", 0.5)])
-    prof = tmp_path / "s34.yaml"
-    rc = main(["targets", "calibrate", str(prof), "--speaker", "S34", "--group", "adult_female", "--set", "gae-men",
-               "--listen", "--source", f"file:{take}", "--pace", "0"])
-    out = capsys.readouterr().out
+    rc, out, _, data = calibrate(tmp_path, capsys, [("fleece", 0.5), ("lot", 0.5), ("fleece", 0.5), ("lot", 0.5),
+                                         ("lot", 0.5), ("goose", 0.5), ("goose", 0.5)], "S34")
     assert rc == 0, out
     assert "that sounded like lot, not FLEECE" in out and out.count("again, please") == 1
-    data = yaml.safe_load(prof.read_text())
     assert [t["vowel"] for t in data["tokens"]] == ["fleece", "fleece", "lot", "lot", "goose", "goose"]
     assert data["transform"]["factors"]["f1"] == pytest.approx(FACTOR, rel=0.03)
 
@@ -90,13 +89,9 @@ def test_plausibility_allows_any_speaker_size_but_not_another_vowel():
 
 
 def test_listen_with_too_little_input_leaves_the_profile_alone(tmp_path, capsys):
-    take = tmp_path / "short.wav"
-    render(take, [("fleece", 0.5), ("fleece", 0.5), ("lot", 0.5), ("lot", 0.5), ("goose", 0.5)])
-    prof = tmp_path / "s32.yaml"
-    rc = main(["targets", "calibrate", str(prof), "--speaker", "S32", "--group", "adult_female", "--set", "gae-men",
-               "--listen", "--source", f"file:{take}", "--pace", "0"])
-    err = capsys.readouterr().err
-    assert rc == 2 and "goose: 1 of 2" in err and not prof.exists()
+    rc, _, err, data = calibrate(tmp_path, capsys, [("fleece", 0.5), ("fleece", 0.5), ("lot", 0.5), ("lot", 0.5),
+                                                    ("goose", 0.5)], "S32")
+    assert rc == 2 and "goose: 1 of 2" in err and data is None
 
 
 @pytest.mark.parametrize("extra,message", [

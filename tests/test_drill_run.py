@@ -409,16 +409,9 @@ def test_coach_led_on_the_screen_moves_on_with_the_arrow_key(tmp_path, recorded,
 
 def test_drill_screen_draws_counts_and_pulses_what_is_judged(tmp_path, recorded, monkeypatch, capsys):
     """After an adaptive change the region drawn is the one judged, and the header shows the record."""
-    from livevowel.ui import screen as screen_mod
+    from screens import capture_screens
 
-    made = []
-    orig = screen_mod.PracticeScreen.__init__
-
-    def init(self, *a, **kw):
-        orig(self, *a, **kw)
-        made.append(self)
-
-    monkeypatch.setattr(screen_mod.PracticeScreen, "__init__", init)
+    made = capture_screens(monkeypatch)
     drill = dict(DRILL, blocks=[{
         "id": "fk", "order": "contrast", "repetitions": 2, "hit_size_sd": 2.0, "hold_s": 0.1,
         "items": [{"prompt": "beat", "target": "fleece"}, {"prompt": "bit", "target": "kit"}],

@@ -40,16 +40,9 @@ def take(tmp_path_factory):
 
 
 def test_recorded_free_practice_judges_each_attempt_against_the_screen_target(take, tmp_path, capsys, monkeypatch):
-    from livevowel.ui import screen as screen_mod
+    from screens import capture_screens
 
-    made = []
-    orig = screen_mod.PracticeScreen.__init__
-
-    def init(self, *a, **kw):
-        orig(self, *a, **kw)
-        made.append(self)
-
-    monkeypatch.setattr(screen_mod.PracticeScreen, "__init__", init)
+    made = capture_screens(monkeypatch)
     data = tmp_path / "d"
     rc = main(["practice", "--targets", "gae-men", "--target", "fleece", "--speaker", "S21", "--headless",
                "--screenshot", str(tmp_path / "free.png"), "--source", f"file:{take}", "--pace", "0",
