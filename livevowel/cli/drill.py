@@ -294,6 +294,11 @@ def print_summary(summary, *, session, recorder, session_id: int, interrupted: b
         size = f"{st.hit_size_sd:.2f} SD" if st.hit_size_sd is not None else "target's own"
         print(f"block {st.index + 1} {st.block.id}: advance rule ({adv}) {crit}; hit size {size}, "
               f"hold {st.hold_s:.2f} s" + (f", seed {st.seed}" if st.seed is not None else ""))
+    print_where_saved(recorder, session_id)
+
+
+def print_where_saved(recorder, session_id: int) -> None:
+    """Where the session went (stdout), or that it was not saved and why (stderr)."""
     if recorder.in_memory:
         print(f"NOT SAVED: {recorder.warning}", file=sys.stderr)
     else:

@@ -109,7 +109,7 @@ def _free_practice_saved(args: argparse.Namespace) -> bool:
 
 def run_recorded_practice(args: argparse.Namespace, *, settings, options, size) -> int:
     """Free practice kept in the session record (``--save``, ``--speaker`` ...)."""
-    from livevowel.cli.drill import open_record, open_screen_input, run_screen_session
+    from livevowel.cli.drill import open_record, open_screen_input, print_where_saved, run_screen_session
     from livevowel.errors import UserError
     from livevowel.session.free import FreeController, FreeSession
     from livevowel.targets import load_target_set
@@ -142,10 +142,6 @@ def run_recorded_practice(args: argparse.Namespace, *, settings, options, size) 
     print(summary.format())
     if res is not None and res.screenshot is not None:
         print(f"screenshot: {res.screenshot}")
-    rec = r.recorder
-    if rec.in_memory:
-        print(f"NOT SAVED: {rec.warning}", file=sys.stderr)
-    else:
-        print(f"saved in {rec.folder} (session {sid}; 'livevowel sessions --data {rec.folder}' lists it)")
-    rec.close()
+    print_where_saved(r.recorder, sid)
+    r.recorder.close()
     return 130 if interrupted else 0
