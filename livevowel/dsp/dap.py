@@ -575,6 +575,19 @@ def _invert(t, out):  # pragma: no cover - compiled
 
 
 @jit
+def _inverse_filter_at(a, cosm, sinm, sr, si):  # pragma: no cover - compiled
+    """``A_m = sum_k a_k e^{-j k w_m} = sr + j si`` at every frequency ``m`` (summed in k order),
+    from ``cosm[k, m] = cos(k w_m)`` and ``sinm[k, m] = sin(k w_m)``."""
+    sr[:] = 0.0
+    si[:] = 0.0
+    for k in range(a.shape[0]):
+        ak = a[k]
+        for j in range(sr.shape[0]):
+            sr[j] += ak * cosm[k, j]
+            si[j] -= ak * sinm[k, j]
+
+
+@jit
 def _dap_kernel(freq_hz, power, w, p, rate_hz, iterations, a):  # pragma: no cover - compiled
     """One frame of :func:`dap` into ``a`` (p + 1); returns whether the iteration ran.
 
@@ -674,14 +687,7 @@ def _dap_kernel(freq_hz, power, w, p, rate_hz, iterations, a):  # pragma: no cov
                 a[k] = tinv[k, 0] / tinv[0, 0]
         n_it = iterations if rnd == 0 else max(1, iterations // IMPUTE_SPLIT)
         for _ in range(n_it):
-            # A_m = sum_k a_k e^{-j k w_m} = sr + j si, summed in k order for every m
-            sr[:] = 0.0
-            si[:] = 0.0
-            for k in range(p + 1):
-                ak = a[k]
-                for j in range(live):
-                    sr[j] += ak * cosm[k, j]
-                    si[j] -= ak * sinm[k, j]
+            _inverse_filter_at(a, cosm, sinm, sr, si)
             for j in range(live):
                 mag = sr[j] * sr[j] + si[j] * si[j]
                 ar[j] = wl[j] * sr[j] / mag
@@ -709,13 +715,7 @@ def _dap_kernel(freq_hz, power, w, p, rate_hz, iterations, a):  # pragma: no cov
             break
         # censored harmonics: the model's level there (gain by the weighted Itakura-Saito
         # optimum g^2 = sum w P |A|^2 / sum w), but not above the bound
-        sr[:] = 0.0
-        si[:] = 0.0
-        for k in range(p + 1):
-            ak = a[k]
-            for j in range(live):
-                sr[j] += ak * cosm[k, j]
-                si[j] -= ak * sinm[k, j]
+        _inverse_filter_at(a, cosm, sinm, sr, si)
         g2 = 0.0
         for j in range(live):
             ar[j] = sr[j] * sr[j] + si[j] * si[j]
