@@ -203,15 +203,10 @@ def _instants_kernel(y, a0, period, out):  # pragma: no cover - compiled
     nb = 0
     c = float(i0)
     while True:
-        want = c - period
-        lo = int(math.floor(want - half))
-        hi = int(math.ceil(want + half))
+        lo = int(math.floor(c - period - half))
         if lo < p:
             break
-        j = lo
-        for t in range(lo, hi + 1):
-            if sg * e[t] > sg * e[j]:
-                j = t
+        j = _strongest(e, sg, lo, int(math.ceil(c - period + half)))
         tmp[nb] = j
         nb += 1
         c = float(j)
@@ -223,19 +218,24 @@ def _instants_kernel(y, a0, period, out):  # pragma: no cover - compiled
     cnt += 1
     c = float(i0)
     while True:
-        want = c + period
-        lo = int(math.floor(want - half))
-        hi = int(math.ceil(want + half))
+        hi = int(math.ceil(c + period + half))
         if hi > big_n - 1:
             break
-        j = lo
-        for t in range(lo, hi + 1):
-            if sg * e[t] > sg * e[j]:
-                j = t
+        j = _strongest(e, sg, int(math.floor(c + period - half)), hi)
         out[cnt] = j
         cnt += 1
         c = float(j)
     return cnt
+
+
+@jit
+def _strongest(e, sg, lo, hi):  # pragma: no cover - compiled
+    """Index in ``lo..hi`` of the largest ``sg * e`` (the first such)."""
+    j = lo
+    for t in range(lo, hi + 1):
+        if sg * e[t] > sg * e[j]:
+            j = t
+    return j
 
 
 @jit
