@@ -78,25 +78,9 @@ def test_harmonic_powers_in_white_noise_known_comb(f0):
     must come back within 1 dB on average over frames once the floor is
     subtracted; harmonics with no power (above 2 kHz here) must mostly be marked lost.
     """
-    from livevowel.dsp.dap import LOST_WEIGHT, harmonic_powers
-    from livevowel.dsp.framing import taper
+    from livevowel.dsp.dap import LOST_WEIGHT
 
-    n = int(0.025 * RATE)
-    w = taper("gaussian", n)
-    t = np.arange(n) / RATE
-    k = np.arange(1, int((RATE / 2 - 90.0) // f0) + 1)
-    amp = np.where(k * f0 < 2000.0, 0.1 * (k * f0 / 500.0) ** -0.5, 0.0)
-    sigma = 0.002
-    true_p = (amp * w.sum() / 2.0) ** 2
-    noise_p = sigma ** 2 * np.sum(w ** 2)
-    rng = np.random.default_rng(5)
-    frames = []
-    for _ in range(60):
-        ph = rng.uniform(0, 2 * np.pi, len(k))
-        x = (amp[:, None] * np.cos(2 * np.pi * f0 * k[:, None] * t[None, :] + ph[:, None])).sum(axis=0)
-        frames.append((x + sigma * rng.standard_normal(n)) * w)
-    hf, hp, hw = harmonic_powers(np.array(frames), np.full(60, f0), rate_hz=RATE, max_hz=RATE / 2 - 90.0,
-                                 nfft=1024, window=w)
+    k, amp, true_p, noise_p, (hf, hp, hw) = _harmonics_in_white_noise(f0, sigma=0.002)
     strong = true_p > noise_p * 10 ** 1.5
     assert strong.sum() >= 5
     got_db = 10 * np.log10(np.mean(hp[:, : len(k)][:, strong], axis=0))
@@ -106,6 +90,32 @@ def test_harmonic_powers_in_white_noise_known_comb(f0):
     # measured: 0.85 at F0 120 Hz (unresolved harmonics: the lower threshold, and the peak
     # search takes the largest of ~10 noise bins), 0.99 at 240 Hz
     assert np.mean(hw[:, : len(k)][:, silent] <= LOST_WEIGHT + 1e-12) > 0.8
+
+
+def _harmonics_in_white_noise(f0: float, *, sigma: float):
+    """60 Gaussian-tapered 25 ms frames of harmonics of ``f0`` (amplitude 0.1 (f / 500 Hz)^-0.5 below
+    2 kHz, none above; random phases) in white noise of standard deviation ``sigma``, through
+    :func:`harmonic_powers`. Returns the harmonic numbers, amplitudes, the known peak power of each
+    (A sum(w) / 2)^2 and noise power per bin s^2 sum(w^2), and (freq, power, weight)."""
+    from livevowel.dsp.dap import harmonic_powers
+    from livevowel.dsp.framing import taper
+
+    n = int(0.025 * RATE)
+    w = taper("gaussian", n)
+    t = np.arange(n) / RATE
+    k = np.arange(1, int((RATE / 2 - 90.0) // f0) + 1)
+    amp = np.where(k * f0 < 2000.0, 0.1 * (k * f0 / 500.0) ** -0.5, 0.0)
+    true_p = (amp * w.sum() / 2.0) ** 2
+    noise_p = sigma ** 2 * np.sum(w ** 2)
+    rng = np.random.default_rng(5)
+    frames = []
+    for _ in range(60):
+        ph = rng.uniform(0, 2 * np.pi, len(k))
+        x = (amp[:, None] * np.cos(2 * np.pi * f0 * k[:, None] * t[None, :] + ph[:, None])).sum(axis=0)
+        frames.append((x + sigma * rng.standard_normal(n)) * w)
+    got = harmonic_powers(np.array(frames), np.full(60, f0), rate_hz=RATE, max_hz=RATE / 2 - 90.0,
+                          nfft=1024, window=w)
+    return k, amp, true_p, noise_p, got
 
 
 def _hidden_band_errors(f0: float, cut_hz: float) -> dict[str, np.ndarray]:
@@ -158,27 +168,11 @@ def test_harmonics_in_loud_white_noise_are_censored_at_the_noise_floor():
     a bound near that floor (measured: median 2.2 dB under it, as the floor
     is a median of valley means); harmonics 15 dB or more above the floor
     keep their level within 1 dB."""
-    from livevowel.dsp.dap import CENSOR_MIN_HARMONICS, harmonic_powers
-    from livevowel.dsp.framing import taper
+    from livevowel.dsp.dap import CENSOR_MIN_HARMONICS
 
     f0 = 120.0
-    n = int(0.025 * RATE)
-    w = taper("gaussian", n)
-    t = np.arange(n) / RATE
-    k = np.arange(1, int((RATE / 2 - 90.0) // f0) + 1)
+    k, amp, true_p, noise_p, (hf, hp, hw) = _harmonics_in_white_noise(f0, sigma=0.02)
     assert len(k) >= CENSOR_MIN_HARMONICS
-    amp = np.where(k * f0 < 2000.0, 0.1 * (k * f0 / 500.0) ** -0.5, 0.0)
-    sigma = 0.02
-    true_p = (amp * w.sum() / 2.0) ** 2
-    noise_p = sigma ** 2 * np.sum(w ** 2)
-    rng = np.random.default_rng(5)
-    frames = []
-    for _ in range(60):
-        ph = rng.uniform(0, 2 * np.pi, len(k))
-        x = (amp[:, None] * np.cos(2 * np.pi * f0 * k[:, None] * t[None, :] + ph[:, None])).sum(axis=0)
-        frames.append((x + sigma * rng.standard_normal(n)) * w)
-    hf, hp, hw = harmonic_powers(np.array(frames), np.full(60, f0), rate_hz=RATE, max_hz=RATE / 2 - 90.0,
-                                 nfft=1024, window=w)
     silent = amp == 0
     ws, ps = hw[:, : len(k)][:, silent], hp[:, : len(k)][:, silent]
     assert np.mean(ws < 0) > 0.9                     # measured 0.98
