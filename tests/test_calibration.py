@@ -114,3 +114,14 @@ def test_token_or_listen_is_needed(tmp_path, capsys):
     rc = main(["targets", "calibrate", str(tmp_path / "p.yaml"), "--speaker", "S33", "--group", "child",
                "--set", "gae-men", "--token", "i=370,3200", "--takes", "3"])
     assert rc == 2 and "--takes goes with --listen" in capsys.readouterr().err
+
+
+def test_listen_gives_up_on_silence(tmp_path, capsys):
+    take = tmp_path / "quiet.wav"
+    render(take, [("fleece", 0.5)], gap_s=8.0)        # one take, then 8 s of silence
+    prof = tmp_path / "s36.yaml"
+    rc = main(["targets", "calibrate", str(prof), "--speaker", "S36", "--group", "adult_female", "--set", "gae-men",
+               "--listen", "--wait", "5", "--source", f"file:{take}", "--pace", "0"])
+    cap = capsys.readouterr()
+    assert rc == 2 and "no voice heard for 5 s" in cap.err and not prof.exists()
+    assert "F1 " in cap.out                          # the first take was measured before it gave up

@@ -89,6 +89,8 @@ def configure(parser: argparse.ArgumentParser) -> None:
     p.add_argument("--vowels", metavar="V,V,...",
                    help="with --listen: the vowels to ask for (ids, IPA or keywords; default the corners)")
     p.add_argument("--takes", metavar="N", type=int, help="with --listen: takes per vowel, 1-10 (default 2)")
+    p.add_argument("--wait", metavar="S", type=float,
+                   help="with --listen: give up after S seconds with no voice (default 30)")
     from livevowel.audio.options import add_source_options
     from livevowel.cli import add_config_option
 
@@ -224,7 +226,8 @@ def _calibrate(args: argparse.Namespace) -> int:
     if bool(args.token) == bool(args.listen):
         raise UserError("give the measured vowels with --token VOWEL=F1,F2 ..., or --listen to measure them")
     if not args.listen:
-        for flag, value in (("--vowels", args.vowels), ("--takes", args.takes), ("--source", args.source),
+        for flag, value in (("--vowels", args.vowels), ("--takes", args.takes), ("--wait", args.wait),
+                            ("--source", args.source),
                             ("--device", args.device), ("--channel", args.channel)):
             if value is not None:
                 raise UserError(f"{flag} goes with --listen (measure the vowels); add --listen or leave out {flag}")
@@ -312,7 +315,11 @@ def _listen_tokens(args: argparse.Namespace, path) -> list:
             f0 = f" (F0 {take.f0_hz:.0f})" if take.f0_hz is not None else ""
             print(f"  F1 {take.f1_hz:.0f} F2 {take.f2_hz:.0f}{f3} Hz{f0}", flush=True)
 
-    got = run_calibration(ts, source, vowels=ids, takes=takes, analysis=AnalysisSettings.from_config(settings),
+    wait = 30.0 if args.wait is None else args.wait
+    if not wait > 0:
+        raise UserError(f"--wait {args.wait:g}: give a number of seconds above 0")
+    got = run_calibration(ts, source, vowels=ids, takes=takes, wait_s=wait,
+                          analysis=AnalysisSettings.from_config(settings),
                           live=live, attempt_settings=AttemptSettings.from_config(settings), on_prompt=prompt,
                           on_take=took)
     short = [f"{v}: {n} of {takes}" for v in ids if (n := sum(t.vowel == v for t in got)) < takes]

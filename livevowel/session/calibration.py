@@ -145,7 +145,8 @@ def run_calibration(target_set, source, *, vowels: Sequence[str] | None = None, 
                     analysis: Any = None, live: Any = None, attempt_settings: Any = None,
                     on_prompt: Callable[[Any, int], None] | None = None,
                     on_take: Callable[[Any, "CalibrationTake | None"], None] | None = None,
-                    poll_s: float = 0.005, timeout_s: float | None = None) -> list[CalibrationTake]:
+                    wait_s: float | None = None, poll_s: float = 0.005,
+                    timeout_s: float | None = None) -> list[CalibrationTake]:
     """Prompt and measure the calibration vowels from ``source`` (not yet started).
 
     Parameters
@@ -165,6 +166,10 @@ def run_calibration(target_set, source, *, vowels: Sequence[str] | None = None, 
     on_take : callable, optional
         ``on_take(outcome, take)`` after each attempt; ``take`` is None when
         the attempt was flagged and the vowel is asked again.
+    wait_s : float, optional
+        Give up when no attempt at all came for this long (seconds of input)
+        after a prompt or the last attempt: :class:`UserError` saying to
+        check the input (a muted or wrong microphone gives only silence).
     poll_s, timeout_s : float
         As for :func:`livevowel.session.runner.run_headless` (which runs it).
 
@@ -209,6 +214,11 @@ def run_calibration(target_set, source, *, vowels: Sequence[str] | None = None, 
             shown = key
             if on_prompt is not None:
                 on_prompt(target_set.get(p.target), count.get(p.target, 0) + 1)
+        if p is not None and wait_s is not None and not session.segmenter.in_attempt:
+            since = max(p.shown_at_s, session.outcomes[-1].attempt.end_s if session.outcomes else 0.0)
+            if session.now_s - since > wait_s:
+                raise UserError(f"no voice heard for {wait_s:g} s; check the input (level, mute, device) with "
+                                "'livevowel listen' and try again")
 
     try:
         run_headless(session, source, analysis=analysis, live=live, poll_s=poll_s, timeout_s=timeout_s,
