@@ -64,9 +64,16 @@ def test_recorded_free_practice_judges_each_attempt_against_the_screen_target(ta
     # the header shows the record, and the pulses follow the recorded hits
     assert scr.counts() == (2, 3, 1, "saved")
     assert [(e.kind, e.target_id) for e in scr.events] == [("hit", "fleece"), ("miss", "fleece"), ("hit", "fleece")]
-    # the sessions command lists it like a drill session
+    # the sessions command lists it like a drill session; the export says it was free practice
     assert main(["sessions", "--data", str(data)]) == 0
     assert "S21" in capsys.readouterr().out
+    assert main(["export", "1", "--data", str(data)]) == 0
+    import csv
+    import io
+
+    table = list(csv.DictReader(io.StringIO(capsys.readouterr().out)))
+    assert [(r["mode"], r["drill"], r["target_id"], r["result"]) for r in table] == [
+        ("free", "", "fleece", "hit"), ("free", "", "fleece", "miss"), ("free", "", "fleece", "hit")]
 
 
 def test_unrecorded_free_practice_writes_nothing(take, tmp_path, capsys, monkeypatch):

@@ -28,10 +28,11 @@ examples:
   livevowel export 12 --csv session12.csv --data ./clinic-data
   livevowel export --speaker S07 --format json --out S07-history.json"""
 
-#: CSV columns, in order (all from the attempts table except those marked).
+#: CSV columns, in order (from the attempts table; session, speaker, mode -- self_paced, coach or
+#: free practice -- and drill from the session's row; block and result derived).
 CSV_COLUMNS = (
-    "session", "speaker", "number", "wall_utc", "start_s", "end_s", "duration_s", "block", "block_id", "trial",
-    "prompt", "target_id", "hit_size_sd", "hold_s", "f1_hz", "f2_hz", "f3_hz", "f0_hz", "level_db",
+    "session", "speaker", "mode", "drill", "number", "wall_utc", "start_s", "end_s", "duration_s", "block",
+    "block_id", "trial", "prompt", "target_id", "hit_size_sd", "hold_s", "f1_hz", "f2_hz", "f3_hz", "f0_hz", "level_db",
     "peak_level_db", "steady_start_s", "steady_end_s", "measured_fraction", "flags", "auto_hit", "override_hit",
     "override_note", "result", "counted", "closeness", "nearest_id", "nearest_distance", "time_in_target_s",
     "speaker_space", "clip",
@@ -60,7 +61,7 @@ def rows_for_csv(store, session_id: int, *, track: bool = False) -> list[dict]:
         counts = a["trial"] is not None and a["counted"] and res is not None
         r = {k: a.get(k) for k in CSV_COLUMNS if k in a}
         r.update({
-            "session": session_id, "speaker": s["speaker_id"],
+            "session": session_id, "speaker": s["speaker_id"], "mode": s["mode"], "drill": s["drill"],
             "block": None if a["block_index"] is None else a["block_index"] + 1,
             "result": ("hit" if res else "miss") if counts else "",
         })
