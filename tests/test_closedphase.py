@@ -20,7 +20,7 @@ from scipy.signal import lfilter, resample_poly
 
 from livevowel.dsp import framing
 from livevowel.dsp.closedphase import closed_phase_lpc, excitation_instants
-from livevowel.dsp.engine import AnalysisSettings, _features, _features_one, _make_plan
+from livevowel.dsp.engine import AnalysisSettings, _features, _make_plan
 from livevowel.dsp.lpc import formant_candidates
 from livevowel.dsp.synth import synthesize_vowel
 
