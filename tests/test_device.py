@@ -227,3 +227,36 @@ def test_slow_consumer_in_the_callback_shows_as_lag(tmp_path):
         pipe.stop()
     assert h.lag_s > 0.5 or h.overflows > 0, h
     assert h.latency_s > h.lag_s
+
+
+@pytest.mark.device
+def test_guided_calibration_from_the_microphone(tmp_path, capsys):
+    """`targets calibrate --listen` on the live microphone: the corner vowels of gae-men
+    (Hillenbrand et al. 1995 men's means, as shipped) with every formant 15 % higher, played
+    into the virtual microphone while it listens, must give back a factor of 1.15."""
+    vmic.require()
+    import threading
+
+    import yaml
+    from test_calibration import FACTOR, render
+
+    from livevowel.cli import main
+
+    take = tmp_path / "corners.wav"
+    render(take, [("fleece", 0.5), ("lot", 0.5), ("goose", 0.5)], lead_s=0.5, gap_s=1.2)
+    players = []
+    timer = threading.Timer(1.5, lambda: players.append(vmic.play(take)))   # after the input has started
+    timer.start()
+    prof = tmp_path / "s40.yaml"
+    try:
+        rc = main(["targets", "calibrate", str(prof), "--speaker", "S40", "--group", "adult_female",
+                   "--set", "gae-men", "--listen", "--takes", "1", "--wait", "20", "--device", vmic.DEVICE])
+    finally:
+        timer.cancel()
+        for p in players:
+            p.wait(timeout=15)
+    out = capsys.readouterr().out
+    assert rc == 0, out
+    data = yaml.safe_load(prof.read_text())
+    assert [t["vowel"] for t in data["tokens"]] == ["fleece", "lot", "goose"]
+    assert data["transform"]["factors"]["f1"] == pytest.approx(FACTOR, rel=0.04)
