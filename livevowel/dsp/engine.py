@@ -810,13 +810,8 @@ def _closed_phase_f1_kernel(row, coef, taper, f0, rate, p, below, clean, min_hz,
     if not (math.isfinite(f0) and f0 > 0 and cand_f[0] < below * f0):
         return False
     n = row.shape[0] - 1
-    mean = 0.0
-    for j in range(n + 1):
-        mean += row[j]
-    mean /= n + 1
     y = np.empty(n)
-    for j in range(n):
-        y[j] = (row[j + 1] - mean) - coef * (row[j] - mean)
+    _emphasis_kernel(row, 0, n, coef, y)
     a = np.empty(p + 1)
     err = _closed_phase_kernel(y, taper, f0, rate, p, CLOSED_FRACTION, MAX_SHIFT_FRACTION, a)
     if not err < math.inf:
@@ -859,12 +854,21 @@ def _level_pitch_kernel(seg, ext, n, rate, tau_min, tau_max, w, threshold, skip_
 @jit
 def _condition_kernel(seg, ext, n, coef, taper, out):  # pragma: no cover - compiled
     """:func:`framing.condition_frames` of the frame in ``seg`` (its ``n + 1`` samples from ``ext``)."""
+    _emphasis_kernel(seg, ext, n, coef, out)
+    for j in range(n):
+        out[j] *= taper[j]
+
+
+@jit
+def _emphasis_kernel(seg, ext, n, coef, out):  # pragma: no cover - compiled
+    """The frame in ``seg`` (its ``n + 1`` samples from ``ext``) with its mean removed and
+    pre-emphasised, untapered, into ``out`` (n)."""
     mean = 0.0
     for j in range(n + 1):
         mean += seg[ext + j]
     mean /= n + 1
     for j in range(n):
-        out[j] = ((seg[ext + 1 + j] - mean) - coef * (seg[ext + j] - mean)) * taper[j]
+        out[j] = (seg[ext + 1 + j] - mean) - coef * (seg[ext + j] - mean)
 
 
 def _confidence(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: np.ndarray, level_db: np.ndarray,

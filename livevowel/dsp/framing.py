@@ -142,6 +142,17 @@ def condition_frames(frames: np.ndarray, *, coef: float, window: np.ndarray) -> 
     return y * window
 
 
+def float_rows(x, name: str) -> np.ndarray:
+    """``x`` as float64, one row ``(N,)`` made ``(1, N)``; ValueError naming ``name`` if not real numbers.
+
+    Callers check the shape they need (the result may have any number of dimensions)."""
+    x = np.asarray(x)
+    if x.dtype.kind not in "fiu":
+        raise ValueError(f"{name} must be a real numeric array, got dtype {x.dtype}")
+    x = x.astype(np.float64, copy=False)
+    return x[np.newaxis, :] if x.ndim == 1 else x
+
+
 def as_frames(frames, name: str = "frames") -> np.ndarray:
     """Frames as a float64 array of shape ``(n_frames, N)``; one frame ``(N,)`` becomes ``(1, N)``.
 
@@ -150,12 +161,7 @@ def as_frames(frames, name: str = "frames") -> np.ndarray:
     ValueError
         For non-numeric data, more than two dimensions, or NaN/infinite samples.
     """
-    x = np.asarray(frames)
-    if x.dtype.kind not in "fiu":
-        raise ValueError(f"{name} must be a real numeric array, got dtype {x.dtype}")
-    x = x.astype(np.float64, copy=False)
-    if x.ndim == 1:
-        x = x[np.newaxis, :]
+    x = float_rows(frames, name)
     if x.ndim != 2:
         raise ValueError(f"{name} must have shape (n_frames, N), got {x.shape}")
     if not math.isfinite(float(np.add.reduce(x, axis=None))) and not np.isfinite(x).all():

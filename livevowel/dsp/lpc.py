@@ -47,6 +47,7 @@ import numpy as np
 
 from livevowel.dsp._jit import jit
 from livevowel.dsp.framing import as_frames as _frames_2d
+from livevowel.dsp.framing import float_rows
 
 __all__ = [
     "autocorrelation",
@@ -564,12 +565,7 @@ def _toeplitz_solve(r: np.ndarray) -> np.ndarray:
 
 def _as_coefficients(a) -> np.ndarray:
     """Inverse filters as float64 ``(n, p + 1)``, p >= 1; one filter ``(p + 1,)`` becomes ``(1, p + 1)``."""
-    a = np.asarray(a)
-    if a.dtype.kind not in "fiu":
-        raise ValueError(f"a must be a real numeric array, got dtype {a.dtype}")
-    a = a.astype(np.float64, copy=False)
-    if a.ndim == 1:
-        a = a[np.newaxis, :]
+    a = float_rows(a, "a")
     if a.ndim != 2 or a.shape[1] < 2:
         raise ValueError(f"a must have shape (n, p + 1) with p >= 1, got {a.shape}")
     return a

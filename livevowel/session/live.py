@@ -35,22 +35,23 @@ class ResultFollower:
     and sounds the tone for those, at the size each was judged at).
     """
 
-    _seen = 0
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        self._seen = 0
+        self._events: list[HitEvent] = []
+        super().__init__(*args, **kwargs)
 
     def _follow(self, outcomes: Sequence[Outcome], time_s: float) -> list[Outcome]:
         """The counted outcomes since the last call (noted as events)."""
         new = [o for o in outcomes[self._seen:] if o.trial is not None]
         self._seen = len(outcomes)
-        events = self.__dict__.setdefault("_events", [])
         for o in new:
-            events.append(HitEvent("hit" if o.trial.hit else "miss", float(time_s),
-                                   o.judgement.target_id or o.trial.target, o.judgement.hit_size_sd))
+            self._events.append(HitEvent("hit" if o.trial.hit else "miss", float(time_s),
+                                         o.judgement.target_id or o.trial.target, o.judgement.hit_size_sd))
         return new
 
     def take_events(self) -> list[HitEvent]:
         """Hits and misses recorded since the last call (oldest first)."""
-        out = self.__dict__.get("_events", [])
-        self._events = []
+        out, self._events = self._events, []
         return out
 
 
@@ -119,6 +120,7 @@ class DrillController(ResultFollower):
     locked = True
 
     def __init__(self, session: DrillSession, targets: Sequence[Any]) -> None:
+        super().__init__()
         self.session = session
         self.targets = tuple(targets)
         self._ids = [t.id for t in self.targets]
