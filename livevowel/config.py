@@ -248,6 +248,9 @@ class Settings:
     """The effective settings of one run, with ``settings['analysis']['hop_ms']`` access."""
 
     values: dict[str, dict[str, Any]] = field(default_factory=defaults)
+    #: where the values came from, in the order applied: "built-in defaults", then a
+    #: config file's path if one was read, then "command line" if options were given
+    sources: tuple[str, ...] = ("built-in defaults",)
 
     def __getitem__(self, section: str) -> dict[str, Any]:
         return self.values[section]
@@ -272,18 +275,22 @@ def load(*, config_file: str | os.PathLike | None = None,
         are ignored (option not given).
     """
     values = defaults()
+    sources = ["built-in defaults"]
     path = Path(config_file) if config_file is not None else user_config_path()
     if config_file is not None or path.exists():
         values = merge(values, load_file(path))
+        sources.append(str(path))
     if overrides:
         given = {sec: {k: v for k, v in kv.items() if v is not None} for sec, kv in overrides.items()}
-        values = merge(values, validate(given, source="command line"))
+        if any(given.values()):
+            values = merge(values, validate(given, source="command line"))
+            sources.append("command line")
     for sec, keys in values.items():  # cross-key checks
         if sec == "analysis" and keys["f0_min_hz"] >= keys["f0_max_hz"]:
             raise UserError("analysis.f0_min_hz must be below analysis.f0_max_hz")
         if sec == "analysis" and keys.get("voicing_on", 0) > keys.get("voicing_off", 1):
             raise UserError("analysis.voicing_on must not be above analysis.voicing_off")
-    return Settings(values)
+    return Settings(values, tuple(sources))
 
 
 def template() -> str:

@@ -52,3 +52,26 @@ def test_bad_config_names_file_and_key(tmp_path, text, needle):
 def test_missing_config_file_is_a_clear_error(tmp_path):
     with pytest.raises(UserError, match="cannot read config file"):
         config.load(config_file=tmp_path / "nope.yaml")
+
+
+def test_settings_name_where_they_were_read_from(tmp_path):
+    f = tmp_path / "mine.yaml"
+    f.write_text("analysis:\n  hop_ms: 5\n", encoding="utf-8")
+    s = config.load(config_file=f, overrides={"analysis": {"voice": "child"}})
+    assert s.sources == ("built-in defaults", str(f), "command line")
+    # options left at None (not given) are not a source
+    s = config.load(config_file=f, overrides={"analysis": {"voice": None}})
+    assert s.sources == ("built-in defaults", str(f))
+
+
+def test_config_command_heads_its_output_with_the_files_read(tmp_path, capsys):
+    import yaml
+
+    from livevowel.cli import main
+
+    f = tmp_path / "mine.yaml"
+    f.write_text("analysis:\n  hop_ms: 5\n", encoding="utf-8")
+    assert main(["config", "--config", str(f)]) == 0
+    out = capsys.readouterr().out
+    assert out.splitlines()[0] == f"# read from: built-in defaults, {f}"
+    assert yaml.safe_load(out)["analysis"]["hop_ms"] == 5.0   # still valid YAML

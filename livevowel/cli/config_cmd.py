@@ -8,7 +8,8 @@ NAME = "config"
 SUMMARY = "show the effective settings, the default file, or the user config path"
 DESCRIPTION = """\
 Show livevowel's settings. With no option, prints the effective settings
-(defaults, then your config file). --template prints the commented default
+(defaults, then your config file), headed by a comment that names the
+files they were read from. --template prints the commented default
 file (the same text as config.yaml in the source tree)."""
 
 
@@ -32,5 +33,8 @@ def run(args: argparse.Namespace) -> int:
         print(config.user_config_path())
     else:
         settings = config.load(config_file=args.config)
+        print(f"# read from: {', '.join(settings.sources)}")
+        if len(settings.sources) == 1:
+            print(f"# (no config file at {config.user_config_path()}; `livevowel config --template` makes one)")
         print(yaml.safe_dump(settings.values, sort_keys=False), end="")
     return 0
