@@ -582,6 +582,27 @@ def schedules(draw):
                     ramp_s=draw(st.floats(0.0, 0.03)), flutter_pct=draw(st.floats(0.0, 30.0)))
 
 
+def _steady_peak(schedule: Schedule, rate: float, seed: int) -> float:
+    """Largest peak of the schedule's sounds each held steady for 60 ms (no changes).
+
+    A segment glides towards the next one's formants, so each sound is held at
+    its own formants and at the next segment's."""
+    peak = 0.0
+    segs = schedule.segments
+    for i, s in enumerate(segs):
+        if s.kind == "silent":
+            continue
+        ahead = [f for f in (s.formants_hz, segs[i + 1].formants_hz if i + 1 < len(segs) else None) if f]
+        for fm in ahead:
+            for f0 in {s.f0_start_hz, s.f0_end_hz}:
+                one = Schedule((Segment(0.06, s.kind, f0, f0, fm, level_db=s.level_db),),
+                               voice=schedule.voice, jitter_pct=schedule.jitter_pct,
+                               shimmer_db=schedule.shimmer_db, aspiration_db=schedule.aspiration_db,
+                               ramp_s=0.0, flutter_pct=0.0)
+                peak = max(peak, float(np.max(np.abs(render(one, rate_hz=rate, seed=seed)[0]))))
+    return peak
+
+
 @settings(max_examples=20, deadline=None)
 @given(schedules(), st.sampled_from([8000.0, 16000.0]), st.integers(1, 400), st.integers(0, 2**31 - 1))
 def test_any_schedule_renders_finite_and_splits_exactly(schedule, rate, block, seed):
@@ -589,11 +610,14 @@ def test_any_schedule_renders_finite_and_splits_exactly(schedule, rate, block, s
     assert whole.shape == (int(round(schedule.duration_s * rate)),)
     assert np.all(np.isfinite(whole))
     if all(s.transition_s >= 0.005 for s in schedule.segments[:-1]):
-        # Known limit: an instant jump of the formants (transition_s 0) while the
-        # resonators still ring can give a transient far above the usual level
-        # (seen: peak 20 after F2 jumped 433 -> 2554 Hz in one 1 ms update).
-        # The bound is held where every change glides over 5 ms or more.
-        assert np.max(np.abs(whole), initial=0.0) < 20.0
+        # The level is bounded relative to each sound held steady, not absolutely:
+        # a steady sound alone can peak far above 1 where formants crowd together
+        # near half the rate (F3 3397 Hz beside the man's fixed F4 of 3500 Hz at
+        # 8 kHz peaks at 37; unity-DC-gain resonators, Klatt 1980). Known limit:
+        # an instant jump (transition_s 0) while the resonators ring can overshoot
+        # both sounds many times over, so the bound is held only where every
+        # change glides over 5 ms or more.
+        assert np.max(np.abs(whole), initial=0.0) <= 4.0 * _steady_peak(schedule, rate, seed) + 1e-6
     voice = KlattVoice(schedule, rate_hz=rate, seed=seed)
     parts = []
     while voice.position < len(whole):
