@@ -595,10 +595,8 @@ def _steady_peak(schedule: Schedule, rate: float, seed: int) -> float:
         ahead = [f for f in (s.formants_hz, segs[i + 1].formants_hz if i + 1 < len(segs) else None) if f]
         for fm in ahead:
             for f0 in {s.f0_start_hz, s.f0_end_hz}:
-                one = Schedule((Segment(0.06, s.kind, f0, f0, fm, level_db=s.level_db),),
-                               voice=schedule.voice, jitter_pct=schedule.jitter_pct,
-                               shimmer_db=schedule.shimmer_db, aspiration_db=schedule.aspiration_db,
-                               ramp_s=0.0, flutter_pct=0.0)
+                held = replace(s, duration_s=0.06, f0_start_hz=f0, f0_end_hz=f0, formants_hz=fm, transition_s=0.0)
+                one = replace(schedule, segments=(held,), ramp_s=0.0, flutter_pct=0.0)
                 peak = max(peak, float(np.max(np.abs(render(one, rate_hz=rate, seed=seed)[0]))))
     return peak
 
@@ -613,7 +611,7 @@ def test_any_schedule_renders_finite_and_splits_exactly(schedule, rate, block, s
         # The level is bounded relative to each sound held steady, not absolutely:
         # a steady sound alone can peak far above 1 where formants crowd together
         # near half the rate (F3 3397 Hz beside the man's fixed F4 of 3500 Hz at
-        # 8 kHz peaks at 37; unity-DC-gain resonators, Klatt 1980). Known limit:
+        # 8 kHz peaks near 37, see the synth module's notes; unity-DC-gain resonators, Klatt 1980). Known limit:
         # an instant jump (transition_s 0) while the resonators ring can overshoot
         # both sounds many times over, so the bound is held only where every
         # change glides over 5 ms or more.
