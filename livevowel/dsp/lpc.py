@@ -703,9 +703,14 @@ def _aberth_kernel(a, z):  # pragma: no cover - compiled
     for k in range(1, p + 1):
         rad = max(rad, abs(c[k]) ** (1.0 / k))
     rad = min(max(rad, 0.5), 2.0)
+    # real and imaginary parts held apart: complex division in compiled code is a
+    # guarded (Smith's) division, several times the cost of one real reciprocal
+    zr = np.empty(p)
+    zi = np.empty(p)
     for k in range(p):
         ang = 2.0 * math.pi * k / p + 0.4
-        z[k] = complex(rad * math.cos(ang), rad * math.sin(ang))
+        zr[k] = rad * math.cos(ang)
+        zi[k] = rad * math.sin(ang)
     done = np.zeros(p, dtype=np.bool_)
     last_w = np.full(p, np.inf)
     for _ in range(200):
@@ -714,48 +719,64 @@ def _aberth_kernel(a, z):  # pragma: no cover - compiled
             if done[k]:
                 n_done += 1
                 continue
-            zk = z[k]
-            pv = complex(1.0, 0.0)
-            dv = complex(0.0, 0.0)
-            az = abs(zk)
+            xr, xi = zr[k], zi[k]
+            pr, pim = 1.0, 0.0                  # p(z) and p'(z) by Horner
+            dr, di = 0.0, 0.0
+            az = math.sqrt(xr * xr + xi * xi)
             bound = 1.0                         # sum_j |c_j| |z|^(p - j), for the rounding bound
             for j in range(1, p + 1):
-                dv = dv * zk + pv
-                pv = pv * zk + c[j]
+                t = dr * xr - di * xi + pr
+                di = dr * xi + di * xr + pim
+                dr = t
+                t = pr * xr - pim * xi + c[j]
+                pim = pr * xi + pim * xr
+                pr = t
                 bound = bound * az + abs(c[j])
             # |p(z)| at the level of Horner's rounding error: z is a root of a
             # polynomial within a few ulps of this one (a backward-error test)
-            at_noise = abs(pv) <= p * 2.220446049250313e-16 * bound
-            if dv == 0:
+            at_noise = math.sqrt(pr * pr + pim * pim) <= p * 2.220446049250313e-16 * bound
+            dd = dr * dr + di * di
+            if dd == 0:
                 if at_noise:
                     done[k] = True
                     continue
                 return False
-            ratio = pv / dv
-            acc = complex(0.0, 0.0)
+            rr = (pr * dr + pim * di) / dd      # ratio = p / p'
+            ri = (pim * dr - pr * di) / dd
+            sr, si = 0.0, 0.0                   # sum_j 1 / (z_k - z_j)
             for j in range(p):
                 if j != k:
-                    acc += 1.0 / (zk - z[j])
-            w = ratio / (1.0 - ratio * acc)
-            if not (math.isfinite(w.real) and math.isfinite(w.imag)):
+                    er = xr - zr[j]
+                    ei = xi - zi[j]
+                    inv = 1.0 / (er * er + ei * ei)
+                    sr += er * inv
+                    si -= ei * inv
+            qr = 1.0 - (rr * sr - ri * si)      # w = ratio / (1 - ratio * sum)
+            qi = -(rr * si + ri * sr)
+            qq = qr * qr + qi * qi
+            wr = (rr * qr + ri * qi) / qq
+            wi = (ri * qr - rr * qi) / qq
+            if not (math.isfinite(wr) and math.isfinite(wi)):
                 return False
-            z[k] = zk - w
-            aw = abs(w)
+            zr[k] = xr - wr
+            zi[k] = xi - wi
+            aw = math.sqrt(wr * wr + wi * wi)
             # done: a correction below 1e-14 of the root, or, with the value at the
             # rounding level, corrections that stopped shrinking fast (quadratic
             # convergence over: rounding noise, or a multiple root)
-            if aw <= 1e-14 * max(abs(zk), 1e-3) or (at_noise and aw >= 0.25 * last_w[k]):
+            if aw <= 1e-14 * max(az, 1e-3) or (at_noise and aw >= 0.25 * last_w[k]):
                 done[k] = True
             last_w[k] = aw
         if n_done == p:
             # Vieta: the roots must sum to -c[1]; a root found twice (another one missed)
             # breaks this by about the missing root's size
-            tot = complex(0.0, 0.0)
-            scale = 0.0
+            tr, ti, scale = 0.0, 0.0, 0.0
             for k in range(p):
-                tot += z[k]
-                scale += abs(z[k])
-            return abs(tot + c[1]) <= 1e-8 * max(scale, 1.0)
+                z[k] = complex(zr[k], zi[k])
+                tr += zr[k]
+                ti += zi[k]
+                scale += math.sqrt(zr[k] * zr[k] + zi[k] * zi[k])
+            return math.sqrt((tr + c[1]) ** 2 + ti * ti) <= 1e-8 * max(scale, 1.0)
     return False
 
 
