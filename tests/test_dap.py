@@ -182,3 +182,37 @@ def test_harmonics_in_loud_white_noise_are_censored_at_the_noise_floor():
     assert np.all(hw[:, : len(k)][:, strong] > 0)
     got_db = 10 * np.log10(np.mean(hp[:, : len(k)][:, strong], axis=0))
     np.testing.assert_allclose(got_db, 10 * np.log10(true_p[strong]), atol=1.0)
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_toeplitz_inverse_matches_numpy_on_lpc_like_matrices(seed):
+    # Trench's (1964) O(n^2) inverse against numpy.linalg.inv of scipy.linalg.toeplitz:
+    # the autocorrelation (order 12) of a strongly resonant AR signal, the ill-conditioned
+    # case DAP meets on voiced frames
+    import scipy.linalg
+    import scipy.signal
+
+    from livevowel.dsp.dap import _toeplitz_inverse
+
+    rng = np.random.default_rng(seed)
+    x = scipy.signal.lfilter([1.0], _model_a(), rng.standard_normal(4000))
+    r = np.correlate(x, x, mode="full")[len(x) - 1: len(x) + 12]
+    t = scipy.linalg.toeplitz(r)
+    got = np.empty_like(t)
+    assert _toeplitz_inverse(r, got)
+    ref = np.linalg.inv(t)
+    cond = np.linalg.cond(t)
+    assert cond > 1e3                        # not a trivially conditioned case
+    np.testing.assert_allclose(got, ref, atol=1e-13 * cond * np.abs(ref).max())
+    np.testing.assert_allclose(got @ t, np.eye(13), atol=1e-12 * cond)
+
+
+def test_toeplitz_inverse_refuses_a_matrix_that_is_not_positive_definite():
+    from livevowel.dsp.dap import _toeplitz_inverse
+
+    out = np.empty((3, 3))
+    assert not _toeplitz_inverse(np.array([1.0, 1.0, 1.0]), out)     # rank one: singular
+    assert not _toeplitz_inverse(np.array([1.0, 2.0, 0.0]), out)     # indefinite
+    assert not _toeplitz_inverse(np.array([0.0, 0.0, 0.0]), out)
+    assert _toeplitz_inverse(np.array([2.0, 1.0, 0.0]), out)
+    np.testing.assert_allclose(out, np.linalg.inv([[2.0, 1.0, 0.0], [1.0, 2.0, 1.0], [0.0, 1.0, 2.0]]), rtol=1e-14)
