@@ -140,12 +140,12 @@ import numpy as np
 from livevowel.dsp import framing
 from livevowel.dsp._jit import jit
 from livevowel.dsp.closedphase import CLOSED_FRACTION, MAX_SHIFT_FRACTION, _closed_phase_kernel
-from livevowel.dsp.dap import HARMONIC_SEARCH, _harmonic_dap_kernel, _window_power, dap, harmonic_powers
+from livevowel.dsp.dap import HARMONIC_SEARCH, _harmonic_dap_kernel, _window_power
 from livevowel.dsp.lpc import METHODS as LPC_METHODS
 from livevowel.dsp.lpc import (_autocorrelation_lpc_kernel, _candidates_kernel, candidates_from_coefficients,
-                               formant_candidates, lpc)
+                               formant_candidates, lpc, polynomial_roots)
 from livevowel.dsp.pitch import LEVEL_FLOOR_DB as _LEVEL_FLOOR_DB
-from livevowel.dsp.pitch import (YIN_SKIP_FACTOR, _lags, _yin_kernel, frame_level_db, voicing_hysteresis, yin,
+from livevowel.dsp.pitch import (YIN_SKIP_FACTOR, _lags, _yin_kernel, voicing_hysteresis, yin,
                                  yin_frame_length)
 from livevowel.dsp.resample import StreamResampler, resample
 from livevowel.dsp.tracking import (CausalTracker, DisplaySmoother, FrameCoster, TrackerCosts, local_costs,
@@ -677,53 +677,56 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
         return _features_one(plan, s, seg, pitch=pitch, formants=formants, f0_hz=f0_hz)
     view = np.lib.stride_tricks.sliding_window_view(seg, plan.n_pitch + 1)
     rows = view[starts - lo - plan.ext - 1]               # (n_k, n_pitch + 1), row start = frame start - ext - 1
-    formant_rows = rows[:, plan.ext: plan.ext + plan.n + 1]  # one extra sample before the frame
+    # the per-frame steps run in compiled loops over the rows (no GIL held, so
+    # threads share the work), calling the kernels of the one-frame path
     if pitch:
-        out["level_db"] = frame_level_db(formant_rows[:, 1:])
-        out["f0_hz"], out["aper"] = _pitch(rows[:, 1:], plan, s)
+        level, f0p, aper = np.empty(n_k), np.empty(n_k), np.empty(n_k)
+        _level_pitch_rows_kernel(rows, plan.ext, plan.n, float(plan.rate_hz), plan.tau_min, plan.tau_max,
+                                 plan.yin_w, float(s.yin_threshold), YIN_SKIP_FACTOR, float(s.yin_skip_margin),
+                                 level, f0p, aper)
+        out["level_db"], out["f0_hz"], out["aper"] = level, f0p, aper
     if not formants:
         return out
-    cond = framing.condition_frames(formant_rows, coef=plan.coef, window=plan.taper)
-    if s.method in ("dap", "hybrid"):
-        if "f0_hz" in out:
+    max_hz = plan.rate_hz / 2.0 - plan.min_hz
+    k2 = plan.order // 2
+    cf, cb = np.full((n_k, k2), np.nan), np.full((n_k, k2), np.nan)
+    done = np.ones(n_k, dtype=np.bool_)
+    sel = np.zeros(0, dtype=np.int64)
+    if s.method in ("dap", "hybrid", "autocorrelation"):
+        if s.method == "autocorrelation":
+            f0 = np.full(n_k, np.nan)
+        elif "f0_hz" in out:
             f0 = out["f0_hz"]
         elif f0_hz is not None:
             f0 = np.asarray(f0_hz, dtype=np.float64)
         else:
             f0, _ = _pitch(rows[:, 1:], plan, s)
-        use = np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
+        f0 = np.require(f0, np.float64, "CW")
+        use = (np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
+               if s.method != "autocorrelation" else np.zeros(n_k, dtype=np.bool_))
         sel = np.flatnonzero(use)
-        # autocorrelation LPC only where DAP does not replace it
+        cond = np.empty((n_k, plan.n))
+        _condition_rows_kernel(rows, plan.ext, plan.n, plan.coef, plan.taper, cond)
+        spec = np.fft.rfft(cond[sel], plan.nfft, axis=1) if len(sel) else np.zeros((0, plan.nfft // 2 + 1), complex)
+        power = spec.real * spec.real + spec.imag * spec.imag
         coeffs = np.empty((n_k, plan.order + 1))
-        rest = np.flatnonzero(~use)
-        if len(rest):
-            coeffs[rest] = lpc(cond[rest], order=plan.order, method="autocorrelation", window=None,
-                               rate_hz=plan.rate_hz)
-        if len(sel) > 1:
-            # frames in half-octave bands of F0: the harmonic count and the peak
-            # search width (hence the padded array sizes) vary little within a band
-            band = np.floor(2.0 * np.log2(f0[sel])).astype(np.int64)
-            groups = [sel[band == b] for b in np.unique(band)]
-        else:
-            groups = [sel] if len(sel) else []
-        for g in groups:
-            hf, hp, hw = harmonic_powers(cond[g], f0[g], rate_hz=plan.rate_hz,
-                                         max_hz=plan.rate_hz / 2.0 - plan.min_hz, nfft=plan.nfft,
-                                         search=HARMONIC_SEARCH, window=plan.taper)
-            a_dap, _ = dap(hf, hp, hw, order=plan.order, rate_hz=plan.rate_hz, iterations=s.dap_iterations,
-                           harmonics_per_parameter=plan.harmonics_per_parameter)
-            coeffs[g] = a_dap
+        _formant_rows_kernel(cond, power, sel, f0, plan.rate_hz / plan.nfft, float(max_hz), HARMONIC_SEARCH,
+                             plan.wspec, plan.order, float(plan.rate_hz), int(s.dap_iterations),
+                             float(plan.harmonics_per_parameter), float(plan.min_hz), _max_bw(s), coeffs, cf, cb, done)
+        for i in np.flatnonzero(~done):       # roots that did not converge: companion-matrix eigenvalues
+            cf[i], cb[i] = (r[0] for r in formant_candidates(coeffs[i], rate_hz=plan.rate_hz, min_hz=plan.min_hz,
+                                                               max_hz=max_hz, max_bandwidth_hz=s.max_bandwidth_hz,
+                                                               roots=polynomial_roots(coeffs[i])))
+        if s.closed_phase_below > 0 and len(sel) and s.method != "autocorrelation":
+            _closed_phase_rows_kernel(np.ascontiguousarray(rows[:, plan.ext: plan.ext + plan.n + 1]), f0,
+                                      use.astype(np.bool_), plan.coef, plan.taper, float(plan.rate_hz), plan.order,
+                                      float(s.closed_phase_below), float(CLOSED_PHASE_CLEAN_ERROR),
+                                      float(plan.min_hz), float(max_hz), _max_bw(s), cf, cb)
     else:
+        cond = framing.condition_frames(rows[:, plan.ext: plan.ext + plan.n + 1], coef=plan.coef, window=plan.taper)
         coeffs = lpc(cond, order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)
-    max_hz = plan.rate_hz / 2.0 - plan.min_hz
-    cf, cb = formant_candidates(coeffs, rate_hz=plan.rate_hz, min_hz=plan.min_hz,
-                                max_hz=max_hz, max_bandwidth_hz=s.max_bandwidth_hz)
-    if s.method in ("dap", "hybrid") and s.closed_phase_below > 0 and len(sel):
-        cf, cb = np.require(cf, requirements="CW"), np.require(cb, requirements="CW")
-        _closed_phase_rows_kernel(np.ascontiguousarray(formant_rows), np.require(f0, np.float64, "CW"),
-                                  use.astype(np.bool_), plan.coef, plan.taper, float(plan.rate_hz), plan.order,
-                                  float(s.closed_phase_below), float(CLOSED_PHASE_CLEAN_ERROR), float(plan.min_hz),
-                                  float(max_hz), _max_bw(s), cf, cb)
+        cf, cb = formant_candidates(coeffs, rate_hz=plan.rate_hz, min_hz=plan.min_hz,
+                                    max_hz=max_hz, max_bandwidth_hz=s.max_bandwidth_hz)
     out["cand_f"], out["cand_b"] = cf, cb
     return out
 
@@ -782,6 +785,51 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
 
 def _max_bw(s: AnalysisSettings) -> float:
     return math.inf if s.max_bandwidth_hz is None else float(s.max_bandwidth_hz)
+
+
+@jit
+def _level_pitch_rows_kernel(rows, ext, n, rate, tau_min, tau_max, w, threshold, skip_factor, skip_margin,
+                             level, f0, aper):  # pragma: no cover - compiled
+    """:func:`_level_pitch_kernel` for every row (the rows laid out as the one-frame path's ``seg``)."""
+    dp = np.empty(tau_max + 2)
+    for i in range(rows.shape[0]):
+        level[i], f0[i], aper[i] = _level_pitch_kernel(rows[i], ext, n, rate, tau_min, tau_max, w, threshold,
+                                                       skip_factor, skip_margin, dp)
+
+
+@jit
+def _condition_rows_kernel(rows, ext, n, coef, taper, out):  # pragma: no cover - compiled
+    """:func:`_condition_kernel` for every row into ``out`` (n_rows, n)."""
+    for i in range(rows.shape[0]):
+        _condition_kernel(rows[i], ext, n, coef, taper, out[i])
+
+
+@jit
+def _formant_rows_kernel(cond, power, sel, f0, df, max_hz, search, wspec, p, rate, iterations, hpp, min_hz, max_bw,
+                         coeffs, cand_f, cand_b, done):  # pragma: no cover - compiled
+    """Inverse filter and formant candidates of every conditioned row ``cond[i]``, as the one-frame path.
+
+    Rows listed in ``sel`` (ascending; ``power[q]`` is the power spectrum of
+    row ``sel[q]``) get DAP of their harmonics at F0 ``f0[i]``, the others
+    autocorrelation LPC. ``coeffs[i]`` receives the filter; ``done[i]`` is
+    False where the roots did not converge (the caller falls back to
+    eigenvalues)."""
+    z = np.empty(p, dtype=np.complex128)
+    q = 0
+    for i in range(cond.shape[0]):
+        a = coeffs[i]
+        if q < sel.shape[0] and sel[q] == i:
+            m = int(math.floor(max_hz / f0[i])) if f0[i] > 0 else 0
+            if m >= 1:
+                _harmonic_dap_kernel(power[q], f0[i], df, m, search, True, wspec, p, rate, iterations, hpp, a)
+            else:
+                # no harmonic below the top: DAP of no harmonics is A(z) = 1
+                a[:] = 0.0
+                a[0] = 1.0
+            q += 1
+        else:
+            _autocorrelation_lpc_kernel(cond[i], p, a)
+        done[i] = _candidates_kernel(a, rate, min_hz, max_hz, max_bw, cand_f[i], cand_b[i], z)
 
 
 @jit
@@ -1500,7 +1548,18 @@ def warm_up(settings: AnalysisSettings | None = None) -> None:
         analyze(x[:2400], rate, settings=sv)
         _WARMED.add(voice)
     _WARMED.add(key)
+    if _ARRAY_API not in _WARMED:
+        # the batch array functions the engine does not call (its loops call the
+        # one-frame kernels): ready them too, so no kernel compiles later
+        from livevowel.dsp.dap import dap, harmonic_powers
+
+        frames = framing.frame_signal(v, frame_len=640, hop=1600)
+        f0 = yin(frames, rate_hz=rate, f0_min_hz=60.0, f0_max_hz=700.0)[0]
+        hf, hp, hw = harmonic_powers(frames * np.hanning(640), f0, rate_hz=rate, max_hz=rate / 2.0 - 50.0)
+        dap(hf, hp, hw, order=12, rate_hz=rate)
+        _WARMED.add(_ARRAY_API)
 
 
-#: Voice settings :func:`warm_up` has run for in this process.
+#: Voice settings :func:`warm_up` has run for in this process (and ``_ARRAY_API`` once the batch functions ran).
 _WARMED: set[str] = set()
+_ARRAY_API = "array functions"
