@@ -314,3 +314,12 @@ def test_threads_share_the_work_without_changing_a_bit(voice):
             np.testing.assert_array_equal(getattr(many, name), getattr(one, name), err_msg=name)
     with pytest.raises(ValueError, match="threads"):
         AnalysisSettings(threads=-1)
+    # long files are measured in parts of bounded size: parts of 250 frames (of 600) change nothing
+    import livevowel.dsp.engine as engine
+
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(engine, "FEATURE_CHUNK_FRAMES", 250)
+        for n in (1, 2):
+            parts = analyze(x, 16000, settings=AnalysisSettings(voice=voice, threads=n)).frames
+            for name in ("voiced", "f0_hz", "f1_hz", "f2_hz", "f3_hz", "b1_hz", "level_db", "confidence"):
+                np.testing.assert_array_equal(getattr(parts, name), getattr(one, name), err_msg=name)

@@ -237,6 +237,8 @@ _DAP_NFFT = 1024           # FFT length of DAP's harmonic spectrum (at least; lo
 MAX_THREADS = 2
 #: ... each with at least this many frames (smaller batches are not worth a thread).
 MIN_FRAMES_PER_THREAD = 200
+#: Offline analysis measures frames in parts of at most this many (bounded memory; 10 s of audio per part).
+FEATURE_CHUNK_FRAMES = 1000
 _AUTO_OFFLINE_FRAMES = 150    # offline auto: voiced frames the decision looks at, evenly spaced (3x the live path's 0.5 s)
 _GATE_MARGIN_DB = 6.0      # voicing_hysteresis default margin_db, used by both paths
 _LOWEST_RATE_HZ = 8000
@@ -714,9 +716,9 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
                              plan.wspec, plan.order, float(plan.rate_hz), int(s.dap_iterations),
                              float(plan.harmonics_per_parameter), float(plan.min_hz), _max_bw(s), coeffs, cf, cb, done)
         for i in np.flatnonzero(~done):       # roots that did not converge: companion-matrix eigenvalues
-            cf[i], cb[i] = (r[0] for r in formant_candidates(coeffs[i], rate_hz=plan.rate_hz, min_hz=plan.min_hz,
-                                                               max_hz=max_hz, max_bandwidth_hz=s.max_bandwidth_hz,
-                                                               roots=polynomial_roots(coeffs[i])))
+            f, b = formant_candidates(coeffs[i], rate_hz=plan.rate_hz, min_hz=plan.min_hz, max_hz=max_hz,
+                                      max_bandwidth_hz=s.max_bandwidth_hz, roots=polynomial_roots(coeffs[i]))
+            cf[i], cb[i] = f[0], b[0]
         if s.closed_phase_below > 0 and len(sel) and s.method != "autocorrelation":
             _closed_phase_rows_kernel(np.ascontiguousarray(rows[:, plan.ext: plan.ext + plan.n + 1]), f0,
                                       use.astype(np.bool_), plan.coef, plan.taper, float(plan.rate_hz), plan.order,
@@ -988,19 +990,32 @@ def _thread_count(s: AnalysisSettings, n_frames: int) -> int:
 
 def _features_threads(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np.ndarray, *,
                       threads: int, f0_hz: np.ndarray | None = None, **kw: Any) -> dict[str, np.ndarray]:
-    """:func:`_features` of ``ks`` in ``threads`` contiguous parts at once (offline analysis).
+    """:func:`_features` of ``ks`` in parts of at most ``FEATURE_CHUNK_FRAMES``
+    frames, ``threads`` parts at a time (offline analysis).
 
     Every frame is measured on its own (no state passes between frames in a
-    batch), so the parts joined are the whole batch's result, bit for bit."""
+    batch), so the parts joined are the whole batch's result, bit for bit.
+    The parts bound the working memory (a part's rows and spectra, about
+    30 MB) whatever the file's length."""
     ks = np.asarray(ks, dtype=np.int64)
-    if threads <= 1 or len(ks) < 2 * MIN_FRAMES_PER_THREAD:
+    n_parts = max(threads, -(-len(ks) // FEATURE_CHUNK_FRAMES))
+    if len(ks) < 2 * MIN_FRAMES_PER_THREAD:
+        n_parts = 1
+    if n_parts <= 1:
         return _features(plan, s, x, base, ks, f0_hz=f0_hz, **kw)
-    from concurrent.futures import ThreadPoolExecutor
-
-    cuts = np.linspace(0, len(ks), threads + 1).round().astype(np.int64)
+    cuts = np.linspace(0, len(ks), n_parts + 1).round().astype(np.int64)
     parts = [(ks[a:b], None if f0_hz is None else np.asarray(f0_hz)[a:b]) for a, b in zip(cuts[:-1], cuts[1:])]
-    with ThreadPoolExecutor(max_workers=threads) as pool:
-        got = list(pool.map(lambda p: _features(plan, s, x, base, p[0], f0_hz=p[1], **kw), parts))
+
+    def run(part: tuple) -> dict[str, np.ndarray]:
+        return _features(plan, s, x, base, part[0], f0_hz=part[1], **kw)
+
+    if threads <= 1:
+        got = [run(p) for p in parts]
+    else:
+        from concurrent.futures import ThreadPoolExecutor
+
+        with ThreadPoolExecutor(max_workers=threads) as pool:
+            got = list(pool.map(run, parts))
     return {k: np.concatenate([g[k] for g in got]) for k in got[0]}
 
 
