@@ -552,24 +552,11 @@ def _toeplitz_inverse(r, out):  # pragma: no cover - compiled
     matrices. *J. SIAM* 12(3), 515-522 (from memory).
     """
     n = r.shape[0]
-    if not r[0] > 0:
+    a = np.empty(n)
+    # the prediction errors fall with the order, so the last one is the smallest pivot
+    err = _levinson_kernel(r, a)
+    if not err > 1e-14 * r[0]:
         return False
-    a = np.zeros(n)
-    tmp = np.empty(n)
-    a[0] = 1.0
-    err = r[0]
-    for i in range(1, n):
-        acc = r[i]
-        for j in range(1, i):
-            acc += a[j] * r[i - j]
-        k = -acc / err
-        tmp[:i + 1] = a[:i + 1]
-        for j in range(1, i):
-            a[j] = tmp[j] + k * tmp[i - j]
-        a[i] = k
-        err *= 1.0 - k * k
-        if not err > 1e-14 * r[0]:
-            return False
     for j in range(n):
         g = a[j] / err
         out[0, j] = g

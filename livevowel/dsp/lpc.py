@@ -651,13 +651,14 @@ def _autocorrelation_lpc_kernel(x, p, a):  # pragma: no cover - compiled
 def _levinson_kernel(r, a):  # pragma: no cover - compiled
     """Inverse filter ``a`` (p + 1) from the autocorrelation ``r`` (p + 1) by the Levinson-Durbin
     recursion (as :func:`levinson_durbin`); ``[1, 0, ...]`` for ``r[0] <= 0``, and the recursion
-    stops where the prediction error reaches 0."""
+    stops where the prediction error reaches 0. Returns the final prediction error (at most 0
+    where it stopped early)."""
     p = r.shape[0] - 1
     a[:] = 0.0
     a[0] = 1.0
     err = r[0]
     if not err > 0:
-        return
+        return err
     tmp = np.empty(p + 1)
     for i in range(1, p + 1):
         acc = r[i]
@@ -670,7 +671,8 @@ def _levinson_kernel(r, a):  # pragma: no cover - compiled
         a[i] = k
         err *= 1.0 - k * k
         if not err > 0:
-            return
+            return err
+    return err
 
 
 @jit
