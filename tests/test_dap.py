@@ -216,3 +216,46 @@ def test_toeplitz_inverse_refuses_a_matrix_that_is_not_positive_definite():
     assert not _toeplitz_inverse(np.array([0.0, 0.0, 0.0]), out)
     assert _toeplitz_inverse(np.array([2.0, 1.0, 0.0]), out)
     np.testing.assert_allclose(out, np.linalg.inv([[2.0, 1.0, 0.0], [1.0, 2.0, 1.0], [0.0, 1.0, 2.0]]), rtol=1e-14)
+
+
+def test_harmonic_evidence_counts_only_harmonics_measured_above_the_noise():
+    from livevowel.dsp.dap import EVIDENCE_FULL, EVIDENCE_NONE, LOST_WEIGHT, harmonic_evidence
+
+    lost, censored, pad = LOST_WEIGHT, -0.1, 0.0
+    w = np.array([
+        [1.0, 1.0, lost, lost, censored, pad],            # 2 measured: F1 and F2 not determined
+        [1.0, 0.7, 1.0, lost, lost, pad],                 # 3
+        [1.0, 1.0, 1.0, 0.8, censored, pad],              # 4
+        [1.0] * 6,
+    ])
+    got = harmonic_evidence(w)
+    n = np.array([2, 3, 4, 6])
+    np.testing.assert_allclose(got, np.clip((n - EVIDENCE_NONE) / (EVIDENCE_FULL - EVIDENCE_NONE), 0, 1))
+    assert got[0] == 0.0 and got[-1] == 1.0
+    assert harmonic_evidence(w[1]).shape == (1,)
+    with pytest.raises(ValueError, match="weight"):
+        harmonic_evidence(np.zeros((2, 3, 4)))
+
+
+def test_harmonic_evidence_falls_when_noise_hides_the_upper_harmonics():
+    # the known order-8 model's harmonics at F0 400 Hz (levels 0 to -55 dB re the strongest),
+    # rendered as a sum of cosines, then white noise with an RMS 10 dB below the strongest
+    # harmonic's amplitude: only the three strongest stay measurable, and the evidence halves
+    from livevowel.dsp.dap import harmonic_evidence, harmonic_powers
+
+    f, p, _ = _harmonics(400.0)
+    n = 275                                       # 25 ms at 11 kHz
+    t = np.arange(n) / RATE
+    x = (np.sqrt(p[0])[:, None] * np.cos(2 * np.pi * f[0][:, None] * t[None, :])).sum(axis=0)
+    win = np.hanning(n)
+
+    def weights(y):
+        return harmonic_powers((y * win)[None, :], np.array([400.0]), rate_hz=RATE, max_hz=RATE / 2 - 90.0,
+                               window=win)[2]
+
+    assert harmonic_evidence(weights(x))[0] == 1.0
+    for seed in range(3):
+        noise = np.sqrt(p.max()) * 10 ** (-10 / 20) * np.random.default_rng(seed).standard_normal(n)
+        w = weights(x + noise)
+        assert (w > 0.3).sum() <= 3
+        assert harmonic_evidence(w)[0] < 1.0

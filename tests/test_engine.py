@@ -300,6 +300,39 @@ def test_confidence_is_high_on_clean_vowels_and_lower_in_noise():
     assert np.median(noisy.confidence[noisy.voiced]) < np.median(clean.confidence[clean.voiced])
 
 
+@pytest.mark.parametrize("causal", [False, True])
+def test_a_fit_the_harmonics_cannot_support_gets_no_confidence(causal):
+    # a man's /u/ (Peterson & Barney 1952 means, from memory: 300, 870, 2240 Hz) at F0 400 Hz
+    # in white noise at 20 dB SNR keeps only h1 and h2 above the noise, and the fit puts F1 and F2
+    # on them (about 400 and 800 Hz): confidence 0, so the practice screen shows no dot
+    # (its default min_confidence is 0.4); clean, or at F0 120 Hz in the same noise, it is measured
+    from livevowel.dsp.synth import add_noise
+
+    def steady(f0, snr_db):
+        x = synthesize_vowel(formants_hz=(300, 870, 2240), f0_hz=f0, duration_s=0.6, rate_hz=16000, voice="man",
+                             jitter_pct=0.5, seed=3)
+        if snr_db is not None:
+            x = add_noise(x, snr_db=snr_db, seed=3)
+        fr = analyze(x, 16000, settings=MALE, causal=causal).frames
+        st = (fr.time_s > 0.1) & (fr.time_s < 0.5)
+        return fr.f1_hz[st], fr.f2_hz[st], fr.confidence[st]
+
+    min_conf = config.defaults()["practice"]["min_confidence"]
+    f1, f2, conf = steady(400.0, 20.0)
+    assert np.median(np.abs(f1 - 400.0)) < 0.06 * 400.0 and np.median(np.abs(f2 - 800.0)) < 0.06 * 400.0
+    assert np.mean(conf < min_conf) > 0.9
+    for f0, snr in ((400.0, None), (120.0, 20.0)):
+        f1, f2, conf = steady(f0, snr)
+        assert np.median(np.abs(f1 / 300.0 - 1.0)) < 0.05 and np.median(np.abs(f2 / 870.0 - 1.0)) < 0.07
+        assert np.mean(conf >= min_conf) > 0.9, (f0, snr)
+
+
+def test_the_benchmark_counts_shown_frames_at_the_screen_s_own_threshold():
+    from livevowel.benchmarks.dsp import SHOWN_MIN_CONFIDENCE
+
+    assert SHOWN_MIN_CONFIDENCE == config.defaults()["practice"]["min_confidence"]
+
+
 @pytest.mark.parametrize("voice", ["auto", "child"])
 def test_threads_share_the_work_without_changing_a_bit(voice):
     # Peterson & Barney (1952) means (from memory): a man's /ɑ/, a woman's /i/, a child's /u/, 2 s each

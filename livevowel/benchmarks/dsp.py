@@ -33,6 +33,11 @@ Figures (all measured in the same run, on this machine):
   off (a frame with no estimate counts as off). A second table repeats the
   engine's figures with white noise at 20 dB SNR added to the same signals,
   with the ratio of each median to the clean one (goal: at most 1.5).
+* **Shown**: on the same frames, the share the practice screen would show
+  as a dot (confidence at or above its default ``min_confidence``), and how
+  many of those have F1 or F2 more than 20 % off: what a user sees, where
+  the accuracy tables count every frame. No goal; it follows the
+  confidence rules (``livevowel.dsp.engine.ON_HARMONIC``).
 """
 
 from __future__ import annotations
@@ -75,6 +80,10 @@ F0_BANDS = {"100-250 Hz": (110.0, 170.0, 240.0), "300-400 Hz": (300.0, 350.0, 40
 #: SNR (dB) of the noisy accuracy table, and the goal for its errors (x the clean ones).
 NOISE_SNR_DB = 20.0
 NOISE_GOAL_RATIO = 1.5
+
+#: Frames at or above this confidence show a dot on the practice screen
+#: (config.yaml ``practice.min_confidence``; tests check the two agree).
+SHOWN_MIN_CONFIDENCE = 0.4
 
 GOAL_P99_MS = 1.0
 GOAL_RTF = 100.0
@@ -268,6 +277,7 @@ def accuracy(*, quick: bool, snr_db: float | None = None) -> list[dict]:
         for band, f0s in F0_BANDS.items():
             f0s = f0s[1:2] if quick else f0s
             err = {"engine": ([], []), "plain": ([], [])}
+            shown, shown_off = [], []
             for vowel in vowels:
                 fm = table[vowel]
                 for f0 in f0s:
@@ -282,6 +292,10 @@ def accuracy(*, quick: bool, snr_db: float | None = None) -> list[dict]:
                     steady = (fr.time_s >= 0.1) & (fr.time_s <= dur - 0.1)
                     times = fr.time_s[steady]
                     eng = np.column_stack([fr.f1_hz[steady], fr.f2_hz[steady]])
+                    sh = fr.confidence[steady] >= SHOWN_MIN_CONFIDENCE
+                    far = ~np.all(np.abs(eng - np.asarray(fm[:2])) <= 0.2 * np.asarray(fm[:2]), axis=1)
+                    shown.append(sh)
+                    shown_off.append(sh & far)
                     plain = (_plain_on_frames(x, times, rate_hz=res.analysis_rate_hz, order=res.order)
                              if snr_db is None else np.full_like(eng, np.nan))   # noisy table: engine only
                     for name, est in (("engine", eng), ("plain", plain)):
@@ -294,6 +308,9 @@ def accuracy(*, quick: bool, snr_db: float | None = None) -> list[dict]:
                     row[f"{name}_{fn}_median_pct"] = float(np.nanmedian(e)) if np.any(np.isfinite(e)) else float("nan")
                     row[f"{name}_{fn}_over20_pct"] = float(100.0 * np.mean(~(e <= 20.0)))
             row["frames"] = int(sum(len(a) for a in err["engine"][0]))
+            n_shown = int(np.concatenate(shown).sum())
+            row["engine_shown_pct"] = float(100.0 * n_shown / max(row["frames"], 1))
+            row["engine_shown_over20_pct"] = float(100.0 * np.concatenate(shown_off).sum() / max(n_shown, 1))
             rows.append(row)
     return rows
 
@@ -459,6 +476,14 @@ def run(*, quick: bool, out: Callable[[str], None]) -> dict:
             f"{r['engine_f1_median_pct']:>8.1f}{r['engine_f1_ratio_to_clean']:>8.2f}{r['engine_f1_over20_pct']:>8.1f}"
             f"{r['engine_f2_median_pct']:>8.1f}{r['engine_f2_ratio_to_clean']:>8.2f}{r['engine_f2_over20_pct']:>8.1f}")
     figures["accuracy_noise"] = {"snr_db": NOISE_SNR_DB, "rows": noisy}
+    out("")
+    out(f"What the practice screen shows: frames at or above its default min_confidence {SHOWN_MIN_CONFIDENCE:g} "
+        "(the others show no dot), and the share of those with F1 or F2 more than 20 % off")
+    out(f"  {'group':<9}{'F0 band':<12} | {'clean shown%':>13}{'of them off%':>13} | "
+        f"{f'{NOISE_SNR_DB:g} dB shown%':>13}{'of them off%':>13}")
+    for c, r in zip(rows, noisy):
+        out(f"  {c['group']:<9}{c['band']:<12} | {c['engine_shown_pct']:>13.1f}{c['engine_shown_over20_pct']:>13.1f} | "
+            f"{r['engine_shown_pct']:>13.1f}{r['engine_shown_over20_pct']:>13.1f}")
     if quick:
         out("  (--quick: fewer vowels, one F0 per band, shorter signals; a smoke run, not a measurement)")
     _voice_auto_rows(quick=quick, out=out, figures=figures)

@@ -56,7 +56,7 @@ import numpy as np
 from livevowel.dsp._jit import jit
 from livevowel.dsp.lpc import _levinson_kernel
 
-__all__ = ["harmonic_powers", "dap", "dap_orders"]
+__all__ = ["harmonic_powers", "harmonic_evidence", "dap", "dap_orders"]
 
 #: Harmonics less than this many dB above the local noise floor count as lost in noise ...
 NOISE_DROP_DB = 8.0
@@ -92,6 +92,17 @@ FLOOR_DB = -50.0
 NOISE_SPAN_HZ = 350.0
 #: Their weight in the fit (and the least weight any harmonic gets).
 LOST_WEIGHT = 0.3
+#: Harmonic evidence of a frame (:func:`harmonic_evidence`): 0 with this many
+#: measured harmonics or fewer ...
+EVIDENCE_NONE = 2
+#: ... 1 from this many (linear between). Two vowel resonances have four
+#: parameters (frequency and bandwidth each): two or three measured levels do
+#: not determine F1 and F2. Measured on the project's synthetic vowels in white
+#: noise at 20 dB SNR, F0 350-400 Hz: back vowels keep 2-4 measured harmonics
+#: (9-11 clean), and the fit then puts F1 and F2 on the first harmonics (a
+#: man's /u/ at F0 400 Hz reads F1 395 and F2 800 Hz for 300 and 870;
+#: Peterson & Barney 1952 means, from memory).
+EVIDENCE_FULL = 4
 #: The valley noise is measured twice: first with the leakage of the raw
 #: harmonic peaks taken out, then with that of their noise-free part only
 #: (peak minus the first floor). Peaks that are themselves noise otherwise
@@ -728,9 +739,48 @@ def _dap_kernel(freq_hz, power, w, p, rate_hz, iterations, a):  # pragma: no cov
 
 @jit
 def _harmonic_dap_kernel(spec, f0, df, m, search, noise_floor, wspec, p, rate_hz, iterations, h, a):  # pragma: no cover
-    """:func:`harmonic_powers` then :func:`dap` for one frame's power spectrum, in one compiled call."""
+    """:func:`harmonic_powers` then :func:`dap` for one frame's power spectrum, in one compiled call;
+    returns the frame's :func:`harmonic_evidence`."""
     freq = np.zeros(m)
     power = np.ones(m)
     weight = np.zeros(m)
     _harmonics_kernel(spec, f0, df, m, search, noise_floor, wspec, freq, power, weight)
-    return _dap_order_kernel(freq, power, weight, p, rate_hz, iterations, h, a)
+    _dap_order_kernel(freq, power, weight, p, rate_hz, iterations, h, a)
+    return _evidence_kernel(weight)
+
+
+@jit
+def _evidence_kernel(weight):  # pragma: no cover - compiled
+    """:func:`harmonic_evidence` of one frame's weights."""
+    n = 0
+    for j in range(weight.shape[0]):
+        if weight[j] > LOST_WEIGHT:
+            n += 1
+    return min(max((n - EVIDENCE_NONE) / (EVIDENCE_FULL - EVIDENCE_NONE), 0.0), 1.0)
+
+
+def harmonic_evidence(weight: np.ndarray) -> np.ndarray:
+    """How well each frame's measured harmonics determine F1 and F2, 0..1.
+
+    Counts the harmonics measured above the noise (weight above
+    ``LOST_WEIGHT``: not lost, not censored, not padding) and maps the count
+    linearly from 0 at ``EVIDENCE_NONE`` to 1 at ``EVIDENCE_FULL``. The
+    engine multiplies a frame's confidence by it, so that a fit the harmonics
+    cannot support (a high voice in noise) shows no dot rather than a wrong one.
+
+    Parameters
+    ----------
+    weight : ndarray, shape (n, M) or (M,)
+        Harmonic weights from :func:`harmonic_powers`.
+
+    Returns
+    -------
+    ndarray, shape (n,)
+    """
+    w = np.asarray(weight, dtype=np.float64)
+    if w.ndim == 1:
+        w = w[np.newaxis, :]
+    if w.ndim != 2:
+        raise ValueError(f"weight must have shape (n, M), got {w.shape}")
+    n = np.sum(w > LOST_WEIGHT, axis=1)
+    return np.clip((n - EVIDENCE_NONE) / (EVIDENCE_FULL - EVIDENCE_NONE), 0.0, 1.0)
