@@ -339,15 +339,22 @@ def test_threads_share_the_work_without_changing_a_bit(voice):
     parts = [synthesize_vowel(formants_hz=fm, f0_hz=f0, duration_s=2.0, rate_hz=16000, voice=v, seed=k)
              for k, (fm, f0, v) in enumerate((((730, 1090, 2440), 120.0, "man"), ((310, 2790, 3310), 220.0, "woman"),
                                                ((430, 1170, 3260), 300.0, "child")))]
+    # and a man's /u/ at F0 400 Hz in white noise at 20 dB SNR (harmonic evidence below 1, see
+    # test_a_fit_the_harmonics_cannot_support_gets_no_confidence)
+    from livevowel.dsp.synth import add_noise
+
+    parts.append(add_noise(synthesize_vowel(formants_hz=(300, 870, 2240), f0_hz=400.0, duration_s=1.0, rate_hz=16000,
+                                            voice="man", seed=3), snr_db=20.0, seed=3))
     x = np.concatenate(parts)
     one = analyze(x, 16000, settings=AnalysisSettings(voice=voice, threads=1)).frames
+    assert np.any(one.voiced & (one.confidence == 0.0))       # the noisy part reaches the evidence rule
     for n in (2, 3):
         many = analyze(x, 16000, settings=AnalysisSettings(voice=voice, threads=n)).frames
         for name in ("voiced", "f0_hz", "f1_hz", "f2_hz", "f3_hz", "b1_hz", "level_db", "confidence"):
             np.testing.assert_array_equal(getattr(many, name), getattr(one, name), err_msg=name)
     with pytest.raises(ValueError, match="threads"):
         AnalysisSettings(threads=-1)
-    # long files are measured in parts of bounded size: parts of 250 frames (of 600) change nothing
+    # long files are measured in parts of bounded size: parts of 250 frames (of 700) change nothing
     import livevowel.dsp.engine as engine
 
     with pytest.MonkeyPatch.context() as mp:

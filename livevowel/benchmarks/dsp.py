@@ -310,7 +310,8 @@ def accuracy(*, quick: bool, snr_db: float | None = None) -> list[dict]:
             row["frames"] = int(sum(len(a) for a in err["engine"][0]))
             n_shown = int(np.concatenate(shown).sum())
             row["engine_shown_pct"] = float(100.0 * n_shown / max(row["frames"], 1))
-            row["engine_shown_over20_pct"] = float(100.0 * np.concatenate(shown_off).sum() / max(n_shown, 1))
+            row["engine_shown_over20_pct"] = (float(100.0 * np.concatenate(shown_off).sum() / n_shown) if n_shown
+                                              else float("nan"))      # none shown: no share to report
             rows.append(row)
     return rows
 

@@ -556,8 +556,11 @@ def _toeplitz_inverse(r, out):  # pragma: no cover - compiled
     recursion ``B[i+1, j+1] = B[i, j] + (g[i+1] g[j+1] - g[n-1-i] g[n-1-j]) / g[0]``
     (the Gohberg-Semencul form of the inverse): O(n^2) operations against
     O(n^3) for elimination. False when ``T`` is not positive definite to
-    working precision (a prediction error at or below ``1e-14 r[0]``; the
-    prediction errors are the pivots of its triangular factorisation).
+    working precision, taken as a prediction error at or below ``1e-14 r[0]``
+    (the prediction errors are the pivots of its triangular factorisation).
+    Near that edge (condition numbers above about 1e15) the test is as rough
+    as any pivot test in double precision; DAP's matrices, whose diagonal it
+    raises by ``1e-9 r[0]``, stay far from it.
 
     Trench, W. F. (1964). An algorithm for the inversion of finite Toeplitz
     matrices. *J. SIAM* 12(3), 515-522 (from memory).
@@ -764,9 +767,11 @@ def harmonic_evidence(weight: np.ndarray) -> np.ndarray:
 
     Counts the harmonics measured above the noise (weight above
     ``LOST_WEIGHT``: not lost, not censored, not padding) and maps the count
-    linearly from 0 at ``EVIDENCE_NONE`` to 1 at ``EVIDENCE_FULL``. The
-    engine multiplies a frame's confidence by it, so that a fit the harmonics
-    cannot support (a high voice in noise) shows no dot rather than a wrong one.
+    linearly from 0 at ``EVIDENCE_NONE`` to 1 at ``EVIDENCE_FULL`` (the
+    value the engine's compiled DAP step returns). The engine multiplies a
+    frame's confidence by it where F1 or F2 lies on a harmonic, so that a fit
+    the harmonics cannot support (a high voice in noise) shows no dot rather
+    than a wrong one.
 
     Parameters
     ----------
@@ -782,5 +787,4 @@ def harmonic_evidence(weight: np.ndarray) -> np.ndarray:
         w = w[np.newaxis, :]
     if w.ndim != 2:
         raise ValueError(f"weight must have shape (n, M), got {w.shape}")
-    n = np.sum(w > LOST_WEIGHT, axis=1)
-    return np.clip((n - EVIDENCE_NONE) / (EVIDENCE_FULL - EVIDENCE_NONE), 0.0, 1.0)
+    return np.array([_evidence_kernel(np.ascontiguousarray(row)) for row in w])

@@ -25,13 +25,16 @@ Stages (both paths)
    hop ``hop_s`` (10 ms) rounded to whole samples; mean removed (DC),
    pre-emphasis from ``pre_emphasis_hz``, Gaussian taper. Frame time = window
    centre in input time.
-4. *Per-frame measures*: level (dB re full scale, :func:`frame_level_db`), F0
+4. *Per-frame measures*: level (dB re full scale, as
+   :func:`~livevowel.dsp.pitch.frame_level_db`), F0
    and aperiodicity (YIN, de Cheveigné & Kawahara 2002, on a window of two
    periods of ``f0_min_hz`` centred on the same point), voicing with
    hysteresis (:func:`voicing_hysteresis`), LPC of order ``2 x formants + 2``
    (five formants below the voice's nominal ceiling; fewer when capped; + 4
    instead of + 2 for men, see ``SOURCE_POLE_PAIRS``) by
-   ``method``, formant candidates from the batched polynomial roots.
+   ``method``, formant candidates from the roots of each frame's filter
+   (:func:`~livevowel.dsp.lpc.formant_candidates`), and the frame's harmonic
+   evidence (:func:`~livevowel.dsp.dap.harmonic_evidence`).
 5. *Tracking* (:mod:`livevowel.dsp.tracking`): candidates -> F1/F2/F3 with
    costs for bandwidth, distance from the voice's reference formants,
    harmonic attraction and frame-to-frame change.
@@ -142,8 +145,8 @@ from livevowel.dsp._jit import jit
 from livevowel.dsp.closedphase import CLOSED_FRACTION, MAX_SHIFT_FRACTION, _closed_phase_kernel
 from livevowel.dsp.dap import HARMONIC_SEARCH, _harmonic_dap_kernel, _window_power
 from livevowel.dsp.lpc import METHODS as LPC_METHODS
-from livevowel.dsp.lpc import (_autocorrelation_lpc_kernel, _candidates_kernel, candidates_from_coefficients,
-                               formant_candidates, lpc, polynomial_roots)
+from livevowel.dsp.lpc import (_autocorrelation_lpc_kernel, _candidates_kernel, candidates_fallback,
+                               formant_candidates, lpc)
 from livevowel.dsp.pitch import LEVEL_FLOOR_DB as _LEVEL_FLOOR_DB
 from livevowel.dsp.pitch import (YIN_SKIP_FACTOR, _lags, _yin_kernel, voicing_hysteresis, yin,
                                  yin_frame_length)
@@ -236,8 +239,9 @@ CLOSED_PHASE_CLEAN_ERROR = 1e-3
 #: harmonics (see ``livevowel.dsp.dap.EVIDENCE_NONE``); such a frame's confidence
 #: is scaled by its harmonic evidence, so the practice screen shows no dot rather
 #: than a wrong one. Measured on the accuracy benchmark's vowels in white noise at
-#: 20 dB SNR (Peterson & Barney 1952 means, from memory; scripts of this change),
-#: frames the screen shows (confidence >= 0.4) that are more than 20 % off:
+#: 20 dB SNR (Peterson & Barney 1952 means, from memory; the "What the practice
+#: screen shows" table of ``livevowel bench --only dsp``), frames the screen
+#: shows (confidence >= 0.4) that are more than 20 % off:
 #: men F0 300-400 Hz 15.7 -> 10.0 %, children 2.3 -> 1.8 %, women 1.2 -> 1.2 %;
 #: frames shown 90.5 -> 75.0 %, 93.2 -> 88.3 %, 86.8 -> 83.5 %; F0 100-250 Hz
 #: and clean rows moved by at most 0.2 points.
@@ -669,7 +673,8 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
     YIN again at this plan's rate.
 
     Samples outside ``x`` read as zero. Returns level_db, f0_hz, aper (when
-    ``pitch``), cand_f, cand_b (n, order // 2).
+    ``pitch``), cand_f, cand_b (n, order // 2) and evidence (n,; see
+    :func:`_formant_rows`) when ``formants``.
     """
     ks = np.asarray(ks, dtype=np.int64)
     n_k = len(ks)
@@ -700,57 +705,68 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
         out["level_db"], out["f0_hz"], out["aper"] = level, f0p, aper
     if not formants:
         return out
+    if "f0_hz" in out:
+        f0 = out["f0_hz"]
+    elif f0_hz is not None:
+        f0 = np.asarray(f0_hz, dtype=np.float64)
+    elif s.method in ("dap", "hybrid"):
+        f0, _ = _pitch(rows[:, 1:], plan, s)
+    else:
+        f0 = np.full(n_k, np.nan)              # not read: no harmonics are fitted
+    out["cand_f"], out["cand_b"], out["evidence"] = _formant_rows(plan, s, rows, f0)
+    return out
+
+
+def _formant_rows(plan: _Plan, s: AnalysisSettings, rows: np.ndarray,
+                  f0: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Formant candidates (n, order // 2) and harmonic evidence (n,) of frames laid out as
+    :func:`_features`' ``rows``, F0 ``f0`` (Hz, NaN: none); the batch and the one-frame paths.
+
+    DAP (or hybrid) frames with an F0 get DAP of their harmonics, then the
+    closed-phase F1 check; the others autocorrelation LPC (other methods:
+    :func:`~livevowel.dsp.lpc.lpc`). Evidence is 1 where no harmonics were fitted.
+    """
+    n_k = rows.shape[0]
     max_hz = plan.rate_hz / 2.0 - plan.min_hz
     k2 = plan.order // 2
-    cf, cb = np.full((n_k, k2), np.nan), np.full((n_k, k2), np.nan)
-    done = np.ones(n_k, dtype=np.bool_)
     evidence = np.ones(n_k)
-    sel = np.zeros(0, dtype=np.int64)
-    if s.method in ("dap", "hybrid", "autocorrelation"):
-        if s.method == "autocorrelation":
-            f0 = np.full(n_k, np.nan)
-        elif "f0_hz" in out:
-            f0 = out["f0_hz"]
-        elif f0_hz is not None:
-            f0 = np.asarray(f0_hz, dtype=np.float64)
-        else:
-            f0, _ = _pitch(rows[:, 1:], plan, s)
-        f0 = np.require(f0, np.float64, "CW")
-        use = (np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
-               if s.method != "autocorrelation" else np.zeros(n_k, dtype=np.bool_))
-        sel = np.flatnonzero(use)
-        cond = np.empty((n_k, plan.n))
-        _condition_rows_kernel(rows, plan.ext, plan.n, plan.coef, plan.taper, cond)
-        spec = np.fft.rfft(cond[sel], plan.nfft, axis=1) if len(sel) else np.zeros((0, plan.nfft // 2 + 1), complex)
-        power = spec.real * spec.real + spec.imag * spec.imag
-        coeffs = np.empty((n_k, plan.order + 1))
-        _formant_rows_kernel(cond, power, sel, f0, plan.rate_hz / plan.nfft, float(max_hz), HARMONIC_SEARCH,
-                             plan.wspec, plan.order, float(plan.rate_hz), int(s.dap_iterations),
-                             float(plan.harmonics_per_parameter), float(plan.min_hz), _max_bw(s), coeffs, cf, cb, done,
-                             evidence)
-        for i in np.flatnonzero(~done):       # roots that did not converge: companion-matrix eigenvalues
-            f, b = formant_candidates(coeffs[i], rate_hz=plan.rate_hz, min_hz=plan.min_hz, max_hz=max_hz,
-                                      max_bandwidth_hz=s.max_bandwidth_hz, roots=polynomial_roots(coeffs[i]))
-            cf[i], cb[i] = f[0], b[0]
-        if s.closed_phase_below > 0 and len(sel) and s.method != "autocorrelation":
-            _closed_phase_rows_kernel(np.ascontiguousarray(rows[:, plan.ext: plan.ext + plan.n + 1]), f0,
-                                      use.astype(np.bool_), plan.coef, plan.taper, float(plan.rate_hz), plan.order,
-                                      float(s.closed_phase_below), float(CLOSED_PHASE_CLEAN_ERROR),
-                                      float(plan.min_hz), float(max_hz), _max_bw(s), cf, cb)
-    else:
+    if s.method not in ("dap", "hybrid", "autocorrelation"):
         cond = framing.condition_frames(rows[:, plan.ext: plan.ext + plan.n + 1], coef=plan.coef, window=plan.taper)
         coeffs = lpc(cond, order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)
         cf, cb = formant_candidates(coeffs, rate_hz=plan.rate_hz, min_hz=plan.min_hz,
                                     max_hz=max_hz, max_bandwidth_hz=s.max_bandwidth_hz)
-    out["cand_f"], out["cand_b"], out["evidence"] = cf, cb, evidence
-    return out
+        return cf, cb, evidence
+    f0 = np.require(f0, np.float64, "CW")
+    # frames without F0 (and every frame of method "autocorrelation") get autocorrelation LPC
+    use = np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
+    if s.method == "autocorrelation":
+        use[:] = False
+    sel = np.flatnonzero(use)
+    cond = np.empty((n_k, plan.n))
+    _condition_rows_kernel(rows, plan.ext, plan.n, plan.coef, plan.taper, cond)
+    spec = np.fft.rfft(cond[sel], plan.nfft, axis=1) if len(sel) else np.zeros((0, plan.nfft // 2 + 1), complex)
+    power = spec.real * spec.real + spec.imag * spec.imag
+    coeffs = np.empty((n_k, plan.order + 1))
+    cf, cb = np.full((n_k, k2), np.nan), np.full((n_k, k2), np.nan)
+    done = np.ones(n_k, dtype=np.bool_)
+    _formant_rows_kernel(cond, power, sel, f0, plan.rate_hz / plan.nfft, float(max_hz), HARMONIC_SEARCH,
+                         plan.wspec, plan.order, float(plan.rate_hz), int(s.dap_iterations),
+                         float(plan.harmonics_per_parameter), float(plan.min_hz), _max_bw(s), coeffs, cf, cb, done,
+                         evidence)
+    candidates_fallback(coeffs, done, cf, cb, rate_hz=plan.rate_hz, min_hz=plan.min_hz, max_hz=max_hz,
+                        max_bandwidth_hz=s.max_bandwidth_hz)
+    if s.closed_phase_below > 0 and len(sel):
+        _closed_phase_rows_kernel(rows, plan.ext, plan.n, f0, use, plan.coef, plan.taper, float(plan.rate_hz),
+                                  plan.order, float(s.closed_phase_below), float(CLOSED_PHASE_CLEAN_ERROR),
+                                  float(plan.min_hz), float(max_hz), _max_bw(s), cf, cb)
+    return cf, cb, evidence
 
 
 def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: bool, formants: bool,
                   f0_hz: np.ndarray | None) -> dict[str, np.ndarray]:
-    """:func:`_features` of one frame (the streaming case): the same steps, in
-    three compiled calls and one FFT. ``seg`` is the frame's row (``n_pitch + 1``
-    samples, starting one sample before the pitch window)."""
+    """:func:`_features` of one frame (the streaming case): level and F0 in one compiled
+    call, then :func:`_formant_rows` of the one row. ``seg`` is the frame's row
+    (``n_pitch + 1`` samples, starting one sample before the pitch window)."""
     out: dict[str, np.ndarray] = {}
     need_f0 = s.method in ("dap", "hybrid") and formants
     f0 = math.nan
@@ -767,36 +783,7 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
         return out
     if f0_hz is not None and not pitch:
         f0 = float(np.asarray(f0_hz, dtype=np.float64).reshape(-1)[0])
-    cond = np.empty(plan.n)
-    _condition_kernel(seg, plan.ext, plan.n, plan.coef, plan.taper, cond)
-    a = np.empty(plan.order + 1)
-    use = (s.method in ("dap", "hybrid") and math.isfinite(f0)
-           and f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
-    max_hz = plan.rate_hz / 2.0 - plan.min_hz
-    m = int(math.floor(max_hz / f0)) if use and f0 > 0 else 0
-    evidence = 1.0
-    if use and m >= 1:
-        spec = np.fft.rfft(cond, plan.nfft)
-        spec = spec.real * spec.real + spec.imag * spec.imag
-        evidence = _harmonic_dap_kernel(spec, f0, plan.rate_hz / plan.nfft, m, HARMONIC_SEARCH, True, plan.wspec,
-                                        plan.order, float(plan.rate_hz), int(s.dap_iterations),
-                                        float(plan.harmonics_per_parameter), a)
-    elif use:
-        # no harmonic below the top (F0 above it): nothing to fit; DAP of no harmonics is A(z) = 1
-        a[:] = 0.0
-        a[0] = 1.0
-        evidence = 0.0
-    elif s.method in ("dap", "hybrid", "autocorrelation"):
-        _autocorrelation_lpc_kernel(cond, plan.order, a)
-    else:
-        a[:] = lpc(cond[None, :], order=plan.order, method=s.method, window=None, rate_hz=plan.rate_hz)[0]
-    cf, cb = _candidates_one(a, plan.rate_hz, plan.min_hz, max_hz, s.max_bandwidth_hz)
-    if use and m >= 1 and s.closed_phase_below > 0:
-        _closed_phase_f1_kernel(seg[plan.ext: plan.ext + plan.n + 1], plan.coef, plan.taper, f0,
-                                float(plan.rate_hz), plan.order, float(s.closed_phase_below),
-                                float(CLOSED_PHASE_CLEAN_ERROR), float(plan.min_hz), float(max_hz), _max_bw(s),
-                                cf[0], cb[0])
-    out["cand_f"], out["cand_b"], out["evidence"] = cf, cb, np.array([evidence])
+    out["cand_f"], out["cand_b"], out["evidence"] = _formant_rows(plan, s, seg[np.newaxis, :], np.array([f0]))
     return out
 
 
@@ -853,13 +840,14 @@ def _formant_rows_kernel(cond, power, sel, f0, df, max_hz, search, wspec, p, rat
 
 
 @jit
-def _closed_phase_rows_kernel(rows, f0, use, coef, taper, rate, p, below, clean, min_hz, max_hz, max_bw,
+def _closed_phase_rows_kernel(rows, ext, n, f0, use, coef, taper, rate, p, below, clean, min_hz, max_hz, max_bw,
                               cand_f, cand_b):  # pragma: no cover - compiled
-    """:func:`_closed_phase_f1_kernel` for every row ``i`` with ``use[i]`` (one call for a batch)."""
+    """:func:`_closed_phase_f1_kernel` for every row ``i`` with ``use[i]``, on the frame's ``n + 1``
+    samples from ``ext`` (one call for a batch)."""
     for i in range(rows.shape[0]):
         if use[i]:
-            _closed_phase_f1_kernel(rows[i], coef, taper, f0[i], rate, p, below, clean, min_hz, max_hz, max_bw,
-                                    cand_f[i], cand_b[i])
+            _closed_phase_f1_kernel(rows[i, ext: ext + n + 1], coef, taper, f0[i], rate, p, below, clean, min_hz,
+                                    max_hz, max_bw, cand_f[i], cand_b[i])
 
 
 @jit
@@ -961,13 +949,6 @@ def _confidence(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: np.ndarray,
     return np.where(ok, np.clip(c, 0.0, 1.0), 0.0)
 
 
-def _candidates_one(a: np.ndarray, rate: float, min_hz: float, max_hz: float,
-                    max_bw_hz: float | None) -> tuple[np.ndarray, np.ndarray]:
-    """:func:`~livevowel.dsp.lpc.formant_candidates` of one inverse filter (the streaming case)."""
-    return candidates_from_coefficients(a[None, :], rate_hz=rate, min_hz=min_hz, max_hz=max_hz,
-                                        max_bandwidth_hz=max_bw_hz)
-
-
 def _confidence_one(f: np.ndarray, b: np.ndarray, raw: np.ndarray, aper: float, level_db: float,
                     floor_db: float, evidence: float, f0: float) -> float:
     """:func:`_confidence` of one frame on Python floats (the streaming case)."""
@@ -1027,7 +1008,8 @@ def _features_threads(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int
     The parts bound the working memory (a part's rows and spectra, about
     30 MB) whatever the file's length."""
     ks = np.asarray(ks, dtype=np.int64)
-    n_parts = max(threads, -(-len(ks) // FEATURE_CHUNK_FRAMES))
+    n_parts = -(-len(ks) // FEATURE_CHUNK_FRAMES)
+    n_parts = max(threads, -(-n_parts // threads) * threads)    # a multiple of the threads: none idles at the end
     if len(ks) < 2 * MIN_FRAMES_PER_THREAD:
         n_parts = 1
     if n_parts <= 1:
@@ -1106,10 +1088,11 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
     cand_b = np.full((n_frames, k2), np.nan)
     evidence = np.ones(n_frames)
 
-    def measure(pl: _Plan, xx: np.ndarray, frames: np.ndarray, cf: np.ndarray, cb: np.ndarray) -> None:
+    def measure(pl: _Plan, xx: np.ndarray, frames: np.ndarray, cf: np.ndarray, cb: np.ndarray,
+                ev: np.ndarray) -> None:
         if len(frames):
             got = _features_threads(pl, s, xx, 0, frames, threads=threads, pitch=False, f0_hz=feat["f0_hz"][frames])
-            cf[frames], cb[frames], evidence[frames] = got["cand_f"], got["cand_b"], got["evidence"]
+            cf[frames], cb[frames], ev[frames] = got["cand_f"], got["cand_b"], got["evidence"]
 
     voice = voice0
     fplan = plan
@@ -1118,10 +1101,10 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
         use = vidx[np.isfinite(feat["f0_hz"][vidx])]
         if len(use) > _AUTO_OFFLINE_FRAMES:
             use = use[np.linspace(0, len(use) - 1, _AUTO_OFFLINE_FRAMES).round().astype(np.int64)]
-        measure(plan, xa, use, cand_f, cand_b)
+        measure(plan, xa, use, cand_f, cand_b, evidence)
         voice = voice_from_frames(feat["f0_hz"][use], cand_f[use], default=_AUTO_DEFAULT)
         if voice == voice0:
-            measure(plan, xa, np.setdiff1d(vidx, use, assume_unique=True), cand_f, cand_b)
+            measure(plan, xa, np.setdiff1d(vidx, use, assume_unique=True), cand_f, cand_b, evidence)
         else:
             fplan, w = _make_plan(s, voice, rate)
             warns += [m for m in w if m not in warns]
@@ -1130,10 +1113,10 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
             k2 = fplan.order // 2
             cand_f = np.full((n_frames, k2), np.nan)
             cand_b = np.full((n_frames, k2), np.nan)
-            evidence[:] = 1.0
-            measure(fplan, xb, vidx[vidx < n2], cand_f, cand_b)
+            evidence = np.ones(n_frames)
+            measure(fplan, xb, vidx[vidx < n2], cand_f, cand_b, evidence)
     else:
-        measure(plan, xa, vidx, cand_f, cand_b)
+        measure(plan, xa, vidx, cand_f, cand_b, evidence)
     feat["cand_f"], feat["cand_b"], feat["evidence"] = cand_f, cand_b, evidence
     times = framing.frame_times(n_frames, frame_len=plan.n, hop=plan.hop, rate_hz=plan.rate_hz)
     track = _offline_track(feat, voiced, times, fplan, s)
@@ -1604,7 +1587,8 @@ def warm_up(settings: AnalysisSettings | None = None) -> None:
         frames = framing.frame_signal(v, frame_len=640, hop=1600)
         f0 = yin(frames, rate_hz=rate, f0_min_hz=60.0, f0_max_hz=700.0)[0]
         hf, hp, hw = harmonic_powers(frames * np.hanning(640), f0, rate_hz=rate, max_hz=rate / 2.0 - 50.0)
-        dap(hf, hp, hw, order=12, rate_hz=rate)
+        a, _ = dap(hf, hp, hw, order=12, rate_hz=rate)
+        formant_candidates(a, rate_hz=rate)
         _WARMED.add(_ARRAY_API)
 
 

@@ -626,11 +626,19 @@ def candidates_from_coefficients(a: np.ndarray, *, rate_hz: float, min_hz: float
     done = np.zeros(n, dtype=np.bool_)
     _candidates_rows_kernel(np.require(a, requirements="CW"), float(rate_hz), float(min_hz), float(max_hz), mbw,
                             f_out, b_out, done)
+    candidates_fallback(a, done, f_out, b_out, rate_hz=rate_hz, min_hz=min_hz, max_hz=max_hz,
+                        max_bandwidth_hz=max_bandwidth_hz)
+    return f_out, b_out
+
+
+def candidates_fallback(a: np.ndarray, done: np.ndarray, f_out: np.ndarray, b_out: np.ndarray, *, rate_hz: float,
+                        min_hz: float, max_hz: float, max_bandwidth_hz: float | None) -> None:
+    """Fill rows ``i`` with ``done[i]`` False of ``f_out, b_out`` (in place) from the companion-matrix
+    eigenvalues of ``a[i]``: the fallback where the compiled Aberth-Ehrlich iteration did not converge."""
     for i in np.flatnonzero(~done):
         f, b = formant_candidates(a[i], rate_hz=rate_hz, min_hz=min_hz, max_hz=max_hz,
                                   max_bandwidth_hz=max_bandwidth_hz, roots=polynomial_roots(a[i]))
         f_out[i], b_out[i] = f[0], b[0]
-    return f_out, b_out
 
 
 @jit
