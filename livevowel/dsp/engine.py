@@ -240,11 +240,11 @@ CLOSED_PHASE_CLEAN_ERROR = 1e-3
 #: is scaled by its harmonic evidence, so the practice screen shows no dot rather
 #: than a wrong one. Measured on the accuracy benchmark's vowels in white noise at
 #: 20 dB SNR (Peterson & Barney 1952 means, from memory; the "What the practice
-#: screen shows" table of ``livevowel bench --only dsp``), frames the screen
-#: shows (confidence >= 0.4) that are more than 20 % off:
-#: men F0 300-400 Hz 15.7 -> 10.0 %, children 2.3 -> 1.8 %, women 1.2 -> 1.2 %;
-#: frames shown 90.5 -> 75.0 %, 93.2 -> 88.3 %, 86.8 -> 83.5 %; F0 100-250 Hz
-#: and clean rows moved by at most 0.2 points.
+#: screen shows" table of ``livevowel bench --only dsp``), live-path frames the
+#: screen shows (confidence >= 0.4) that are more than 20 % off: men F0 300-400 Hz
+#: 17.2 -> 11.1 %, children 3.2 -> 2.3 %, women 1.8 -> 1.9 %; frames shown
+#: 93.2 -> 76.4 %, 94.6 -> 90.0 %, 88.3 -> 85.5 %; F0 100-250 Hz and clean
+#: rows moved by at most 0.2 points.
 ON_HARMONIC = 0.06
 _AUTO_DEFAULT = "adult_female"
 _DAP_NFFT = 1024           # FFT length of DAP's harmonic spectrum (at least; longer frames get more)
