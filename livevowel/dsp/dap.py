@@ -403,12 +403,14 @@ def _harmonics_kernel(spec, f0, df, m, search, noise_floor, wspec, freq, power, 
                     cnt += 1
                 noise[j] = buf[cnt // 2] if cnt % 2 else 0.5 * (buf[cnt // 2 - 1] + buf[cnt // 2])
             for j in range(m):
-                sd = 10.0 * math.log10(p0[j] / max(noise[j], 1e-300)) if p0[j] > 0 else -np.inf
-                if math.isnan(sd):
-                    sd = 0.0
-                snr_db[j] = sd
                 # next pass: only the harmonic part of each peak leaks into the valleys
                 src[j] = max(p0[j] - noise[j], 0.0)
+        for j in range(m):
+            # the local SNR against the last pass's floor
+            sd = 10.0 * math.log10(p0[j] / max(noise[j], 1e-300)) if p0[j] > 0 else -np.inf
+            if math.isnan(sd):
+                sd = 0.0
+            snr_db[j] = sd
         top = 0.0
         last_ok = 0
         for j in range(m):

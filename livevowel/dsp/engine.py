@@ -745,11 +745,10 @@ def _formant_rows(plan: _Plan, s: AnalysisSettings, rows: np.ndarray,
     cond = np.empty((n_k, plan.n))
     _condition_rows_kernel(rows, plan.ext, plan.n, plan.coef, plan.taper, cond)
     spec = np.fft.rfft(cond[sel], plan.nfft, axis=1) if len(sel) else np.zeros((0, plan.nfft // 2 + 1), complex)
-    power = spec.real * spec.real + spec.imag * spec.imag
     coeffs = np.empty((n_k, plan.order + 1))
     cf, cb = np.full((n_k, k2), np.nan), np.full((n_k, k2), np.nan)
     done = np.ones(n_k, dtype=np.bool_)
-    _formant_rows_kernel(cond, power, sel, f0, plan.rate_hz / plan.nfft, float(max_hz), HARMONIC_SEARCH,
+    _formant_rows_kernel(cond, spec, sel, f0, plan.rate_hz / plan.nfft, float(max_hz), HARMONIC_SEARCH,
                          plan.wspec, plan.order, float(plan.rate_hz), int(s.dap_iterations),
                          float(plan.harmonics_per_parameter), float(plan.min_hz), _max_bw(s), coeffs, cf, cb, done,
                          evidence)
@@ -809,24 +808,28 @@ def _condition_rows_kernel(rows, ext, n, coef, taper, out):  # pragma: no cover 
 
 
 @jit
-def _formant_rows_kernel(cond, power, sel, f0, df, max_hz, search, wspec, p, rate, iterations, hpp, min_hz, max_bw,
+def _formant_rows_kernel(cond, spec, sel, f0, df, max_hz, search, wspec, p, rate, iterations, hpp, min_hz, max_bw,
                          coeffs, cand_f, cand_b, done, evidence):  # pragma: no cover - compiled
     """Inverse filter and formant candidates of every conditioned row ``cond[i]``, as the one-frame path.
 
-    Rows listed in ``sel`` (ascending; ``power[q]`` is the power spectrum of
-    row ``sel[q]``) get DAP of their harmonics at F0 ``f0[i]``, the others
+    Rows listed in ``sel`` (ascending; ``spec[q]`` is the spectrum of row
+    ``sel[q]``) get DAP of their harmonics at F0 ``f0[i]``, the others
     autocorrelation LPC. ``coeffs[i]`` receives the filter; ``done[i]`` is
     False where the roots did not converge (the caller falls back to
     eigenvalues); ``evidence[i]`` the harmonic evidence of a DAP row
     (:func:`~livevowel.dsp.dap.harmonic_evidence`; other rows are left as given)."""
     z = np.empty(p, dtype=np.complex128)
+    power = np.empty(spec.shape[1])
     q = 0
     for i in range(cond.shape[0]):
         a = coeffs[i]
         if q < sel.shape[0] and sel[q] == i:
             m = int(math.floor(max_hz / f0[i])) if f0[i] > 0 else 0
             if m >= 1:
-                evidence[i] = _harmonic_dap_kernel(power[q], f0[i], df, m, search, True, wspec, p, rate, iterations,
+                for j in range(power.shape[0]):
+                    v = spec[q, j]
+                    power[j] = v.real * v.real + v.imag * v.imag
+                evidence[i] = _harmonic_dap_kernel(power, f0[i], df, m, search, True, wspec, p, rate, iterations,
                                                    hpp, a)
             else:
                 # no harmonic below the top: DAP of no harmonics is A(z) = 1
