@@ -701,7 +701,7 @@ def _features(plan: _Plan, s: AnalysisSettings, x: np.ndarray, base: int, ks: np
         level, f0p, aper = np.empty(n_k), np.empty(n_k), np.empty(n_k)
         _level_pitch_rows_kernel(rows, plan.ext, plan.n, float(plan.rate_hz), plan.tau_min, plan.tau_max,
                                  plan.yin_w, float(s.yin_threshold), YIN_SKIP_FACTOR, float(s.yin_skip_margin),
-                                 level, f0p, aper)
+                                 _quiet_db(s), level, f0p, aper)
         out["level_db"], out["f0_hz"], out["aper"] = level, f0p, aper
     if not formants:
         return out
@@ -773,7 +773,8 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
         dp = np.empty(plan.tau_max + 2)
         sf = YIN_SKIP_FACTOR
         level, f0, ap = _level_pitch_kernel(seg, plan.ext, plan.n, float(plan.rate_hz), plan.tau_min, plan.tau_max,
-                                            plan.yin_w, float(s.yin_threshold), sf, float(s.yin_skip_margin), dp)
+                                            plan.yin_w, float(s.yin_threshold), sf, float(s.yin_skip_margin), dp,
+                                            _quiet_db(s))
         if pitch:
             out["level_db"] = np.array([level])
             out["f0_hz"] = np.array([f0])
@@ -786,18 +787,23 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
     return out
 
 
+def _quiet_db(s: AnalysisSettings) -> float:
+    """Level (dBFS) below which a frame is unvoiced on level alone (both paths' voicing rule)."""
+    return float(s.voicing_floor_db - _GATE_MARGIN_DB)
+
+
 def _max_bw(s: AnalysisSettings) -> float:
     return math.inf if s.max_bandwidth_hz is None else float(s.max_bandwidth_hz)
 
 
 @jit
-def _level_pitch_rows_kernel(rows, ext, n, rate, tau_min, tau_max, w, threshold, skip_factor, skip_margin,
+def _level_pitch_rows_kernel(rows, ext, n, rate, tau_min, tau_max, w, threshold, skip_factor, skip_margin, quiet_db,
                              level, f0, aper):  # pragma: no cover - compiled
     """:func:`_level_pitch_kernel` for every row (the rows laid out as the one-frame path's ``seg``)."""
     dp = np.empty(tau_max + 2)
     for i in range(rows.shape[0]):
         level[i], f0[i], aper[i] = _level_pitch_kernel(rows[i], ext, n, rate, tau_min, tau_max, w, threshold,
-                                                       skip_factor, skip_margin, dp)
+                                                       skip_factor, skip_margin, dp, quiet_db)
 
 
 @jit
@@ -897,8 +903,13 @@ def _closed_phase_f1_kernel(row, coef, taper, f0, rate, p, below, clean, min_hz,
 
 
 @jit
-def _level_pitch_kernel(seg, ext, n, rate, tau_min, tau_max, w, threshold, skip_factor, skip_margin, dp):  # pragma: no cover
-    """Level (dBFS) of the formant window, then YIN (fallback on) over the pitch window, as :func:`_pitch`."""
+def _level_pitch_kernel(seg, ext, n, rate, tau_min, tau_max, w, threshold, skip_factor, skip_margin, dp,
+                        quiet_db):  # pragma: no cover
+    """Level (dBFS) of the formant window, then YIN (fallback on) over the pitch window, as :func:`_pitch`.
+
+    Below ``quiet_db`` (the level at which voicing turns off whatever the
+    periodicity) YIN is skipped: F0 and aperiodicity are NaN, and the voicing
+    decision is the one YIN's values would have given."""
     ms = 0.0
     for j in range(n):
         v = seg[ext + 1 + j]
@@ -906,6 +917,8 @@ def _level_pitch_kernel(seg, ext, n, rate, tau_min, tau_max, w, threshold, skip_
     ms /= n
     level = 10.0 * math.log10(ms) if ms > 0 else -np.inf
     level = max(level, _LEVEL_FLOOR_DB)
+    if level < quiet_db:
+        return level, np.nan, np.nan
     f, a = _yin_kernel(seg[1:], rate, tau_min, tau_max, w, threshold, True, skip_factor, skip_margin, dp)
     return level, f, a
 
