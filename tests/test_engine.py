@@ -329,8 +329,33 @@ def test_a_fit_the_harmonics_cannot_support_gets_no_confidence(causal):
 
 def test_the_benchmark_counts_shown_frames_at_the_screen_s_own_threshold():
     from livevowel.benchmarks.dsp import SHOWN_MIN_CONFIDENCE
+    from livevowel.ui.screen import ScreenOptions
 
     assert SHOWN_MIN_CONFIDENCE == config.defaults()["practice"]["min_confidence"]
+    # the screen's options with nothing configured use the same threshold
+    assert ScreenOptions().min_confidence == SHOWN_MIN_CONFIDENCE
+
+
+def test_offline_and_streaming_confidence_rules_agree():
+    # the two copies of the confidence rule (arrays offline, floats per frame live) on
+    # random frames, F1/F2 on and off harmonics of F0, with NaN F0, F3 and bandwidths
+    from livevowel.dsp.engine import ON_HARMONIC, _confidence, _confidence_one
+
+    rng = np.random.default_rng(0)
+    n = 2000
+    f0 = rng.uniform(80, 450, n)
+    f0[::7] = np.nan
+    f = np.column_stack([f0 * rng.integers(1, 4, n) * (1 + rng.uniform(-2, 2, n) * ON_HARMONIC),
+                         rng.uniform(700, 2800, n), rng.uniform(2000, 3500, n)])
+    f[::11, 2] = np.nan
+    raw = f * (1 + rng.normal(0, 0.01, f.shape))
+    b = rng.uniform(30, 600, (n, 3))
+    b[::13, 1] = np.nan
+    aper, level, ev = rng.uniform(0, 0.5, n), rng.uniform(-70, -10, n), rng.uniform(0, 1, n)
+    many = _confidence(f, b, raw, aper, level, -50.0, ev, f0)
+    one = [_confidence_one(f[i], b[i], raw[i], aper[i], level[i], -50.0, ev[i], f0[i]) for i in range(n)]
+    np.testing.assert_allclose(many, one, rtol=0, atol=1e-12)
+    assert 0.05 < np.mean(many < 0.4) < 0.95             # the rows span shown and hidden frames
 
 
 @pytest.mark.parametrize("voice", ["auto", "child"])

@@ -34,10 +34,11 @@ Figures (all measured in the same run, on this machine):
   engine's figures with white noise at 20 dB SNR added to the same signals,
   with the ratio of each median to the clean one (goal: at most 1.5).
 * **Shown**: on the same frames of the live (causal) path, which the
-  practice screen gets, the share it would show as a dot (confidence at or above its default ``min_confidence``), and how
-  many of those have F1 or F2 more than 20 % off: what a user sees, where
-  the accuracy tables count every frame. No goal; it follows the
-  confidence rules (``livevowel.dsp.engine.ON_HARMONIC``).
+  practice screen gets, the share it would show as a dot (confidence at or
+  above its default ``min_confidence``), and how many of those have F1 or
+  F2 more than 20 % off: what a user sees, where the accuracy tables count
+  every frame. No goal; it follows the confidence rules
+  (``livevowel.dsp.engine.ON_HARMONIC``).
 """
 
 from __future__ import annotations
@@ -48,6 +49,7 @@ from typing import Callable
 import numpy as np
 
 from livevowel.benchmarks import percentiles_ms, verdict
+from livevowel.config import defaults as config_defaults
 
 #: Input rate of the benchmark signals, Hz (a common microphone rate).
 RATE_HZ = 16000
@@ -82,8 +84,8 @@ NOISE_SNR_DB = 20.0
 NOISE_GOAL_RATIO = 1.5
 
 #: Frames at or above this confidence show a dot on the practice screen
-#: (config.yaml ``practice.min_confidence``; tests check the two agree).
-SHOWN_MIN_CONFIDENCE = 0.4
+#: (the default of config.yaml's ``practice.min_confidence``).
+SHOWN_MIN_CONFIDENCE = float(config_defaults()["practice"]["min_confidence"])
 
 GOAL_P99_MS = 1.0
 GOAL_RTF = 100.0

@@ -738,9 +738,8 @@ def _formant_rows(plan: _Plan, s: AnalysisSettings, rows: np.ndarray,
         return cf, cb, evidence
     f0 = np.require(f0, np.float64, "CW")
     # frames without F0 (and every frame of method "autocorrelation") get autocorrelation LPC
-    use = np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
-    if s.method == "autocorrelation":
-        use[:] = False
+    use = (np.isfinite(f0) & (f0 >= (s.dap_above_hz if s.method == "hybrid" else 0.0))
+           if s.method != "autocorrelation" else np.zeros(n_k, dtype=np.bool_))
     sel = np.flatnonzero(use)
     cond = np.empty((n_k, plan.n))
     _condition_rows_kernel(rows, plan.ext, plan.n, plan.coef, plan.taper, cond)
@@ -1577,6 +1576,7 @@ def warm_up(settings: AnalysisSettings | None = None) -> None:
     key = (settings if settings is not None else AnalysisSettings()).voice
     if key in _WARMED:
         return
+    first = not _WARMED
     from livevowel.dsp.synth import synthesize_vowel
 
     rate = 16000
@@ -1586,7 +1586,7 @@ def warm_up(settings: AnalysisSettings | None = None) -> None:
     x = np.concatenate([np.zeros(rate // 10), v, noise])
     s = settings if settings is not None else AnalysisSettings()
     # auto may settle on any voice: ready each one's plan (tables of its order) as well
-    voices = [s.voice] + ([v for v in NOMINAL_CEILING_HZ] if s.voice == "auto" else [])
+    voices = [s.voice] + (list(NOMINAL_CEILING_HZ) if s.voice == "auto" else [])
     for voice in voices:
         sv = replace(s, voice=voice)
         sa = StreamingAnalyzer(rate, settings=sv)
@@ -1595,9 +1595,9 @@ def warm_up(settings: AnalysisSettings | None = None) -> None:
         analyze(x[:2400], rate, settings=sv)
         _WARMED.add(voice)
     _WARMED.add(key)
-    if _ARRAY_API not in _WARMED:
-        # the batch array functions the engine does not call (its loops call the
-        # one-frame kernels): ready them too, so no kernel compiles later
+    if first:
+        # once per process: the batch array functions the engine does not call (its
+        # loops call the one-frame kernels), so that no kernel compiles later
         from livevowel.dsp.dap import dap, harmonic_powers
 
         frames = framing.frame_signal(v, frame_len=640, hop=1600)
@@ -1605,9 +1605,7 @@ def warm_up(settings: AnalysisSettings | None = None) -> None:
         hf, hp, hw = harmonic_powers(frames * np.hanning(640), f0, rate_hz=rate, max_hz=rate / 2.0 - 50.0)
         a, _ = dap(hf, hp, hw, order=12, rate_hz=rate)
         formant_candidates(a, rate_hz=rate)
-        _WARMED.add(_ARRAY_API)
 
 
-#: Voice settings :func:`warm_up` has run for in this process (and ``_ARRAY_API`` once the batch functions ran).
+#: Voice settings :func:`warm_up` has run for in this process.
 _WARMED: set[str] = set()
-_ARRAY_API = "array functions"
