@@ -12,7 +12,7 @@ from livevowel.cli import main
 def test_bench_lists_runs_and_refuses(tmp_path, capsys):
     assert main(["bench", "--list"]) == 0
     suites = capsys.readouterr().out.split()
-    assert {"dsp", "live", "targets", "display", "tracking", "session", "synth"} <= set(suites)
+    assert {"dsp", "conditions", "live", "targets", "display", "tracking", "session", "synth"} <= set(suites)
     out = tmp_path / "b.json"
     assert main(["bench", "--only", "targets", "--quick", "--json", str(out)]) == 0
     text = capsys.readouterr().out
@@ -21,3 +21,45 @@ def test_bench_lists_runs_and_refuses(tmp_path, capsys):
     assert figures and all(isinstance(k, str) for k in figures)
     assert main(["bench", "--only", "nope"]) == 2
     assert "unknown suite 'nope'" in capsys.readouterr().err
+
+
+def test_conditions_suite_reports_every_condition_group_and_band(tmp_path, capsys):
+    from livevowel.benchmarks.conditions import CONDITIONS
+
+    out = tmp_path / "c.json"
+    assert main(["bench", "--only", "conditions", "--quick", "--json", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert all(label in text for label, _, _ in CONDITIONS.values())
+    rows = json.loads(out.read_text())["conditions"]["rows"]
+    assert len(rows) == len(CONDITIONS) * 3 * 2               # conditions x groups x F0 bands
+    for r in rows:
+        for k in ("engine", "no_cp", "plain"):
+            assert 0.0 <= r[f"{k}_off_pct"] <= 100.0 and r[f"{k}_f1_median_pct"] >= 0.0, r
+
+
+def test_conditions_channels_do_what_they_say():
+    import numpy as np
+
+    from livevowel.benchmarks.conditions import RATE_HZ, channel
+
+    x = np.random.default_rng(1).standard_normal(RATE_HZ)
+    # the all-pass sections keep the magnitude spectrum: |H| = 1 at every frequency (closed form
+    # of a filter whose numerator is its denominator reversed); the output's power is the input's
+    # up to the start-up transient
+    y = channel(x, "allpass", seed=0)
+    assert abs(np.sum(y[1000:] ** 2) / np.sum(x[1000:] ** 2) - 1.0) < 0.02
+    # second-order Butterworth high-pass at 100 Hz: |H(f)|^2 = r^4 / (1 + r^4), r = f / 100 Hz
+    # (Butterworth's closed form): a 50 Hz sine comes out 12.3 dB down
+    t = np.arange(RATE_HZ) / RATE_HZ
+    s = np.sin(2 * np.pi * 50.0 * t)
+    g = np.sqrt(np.mean(channel(s, "lowcut", seed=0)[4000:] ** 2) / np.mean(s[4000:] ** 2))
+    assert abs(20 * np.log10(g) - 10 * np.log10(0.5 ** 4 / (1 + 0.5 ** 4))) < 0.1
+    # the room's reverberant tail carries 3.5 dB less energy than the direct sound
+    imp = np.zeros(RATE_HZ)
+    imp[0] = 1.0
+    h = channel(imp, "room", seed=3)
+    assert abs(10 * np.log10(1.0 / np.sum(h[1:] ** 2)) - 3.5) < 1e-9
+    # 30 dB SNR: the added noise's power is 30 dB under the signal's (livevowel.dsp.synth.add_noise)
+    noisy = channel(s, "noise30", seed=4)
+    assert abs(10 * np.log10(np.mean(s ** 2) / np.mean((noisy - s) ** 2)) - 30.0) < 0.5
+    assert np.array_equal(channel(s, None, seed=0), s)

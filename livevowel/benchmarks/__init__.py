@@ -21,6 +21,7 @@ import numpy as np
 #: suite name -> module under livevowel.benchmarks, in run order.
 SUITES: dict[str, str] = {
     "dsp": "dsp",
+    "conditions": "conditions",
     "display": "display",
     "synth": "synth",
     "targets": "targets",
