@@ -89,8 +89,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "threads": Key(0, "offline analysis of one input: threads sharing the work (0: one per core, at most 2; "
                        "1: none)", min=0, max=64, kind=int),
         "closed_phase_below": Key(1.3, "dap only: where the lowest formant reads below this many times F0 (F1 "
-                                  "near or under F0, high voices), closed-phase LPC may give it instead; 0 turns "
-                                  "it off (e.g. in a reverberant room)", min=0, max=4),
+                                  "near or under F0, high voices), closed-phase LPC may give it instead, and a "
+                                  "near-exact closed-phase fit also replaces formants locked on a harmonic below "
+                                  "2.2 x F0; 0 turns both off", min=0, max=4),
         "taper": Key("gaussian", "analysis window shape: gaussian, hann or hamming",
                      kind=str, choices=("gaussian", "hann", "hamming")),
         "yin_threshold": Key(0.1, "YIN dip threshold for the period search (lower = stricter)", min=0.01, max=0.5),

@@ -172,13 +172,13 @@ def test_engine_setting_is_checked():
         AnalysisSettings(closed_phase_below=-1.0)
 
 
-def _engine_kernel_case(dap_f, *, noise=0.0):
-    """Run the engine's closed-phase F1 step on a pulse-driven all-pole frame (F1 310 Hz, F0 400 Hz)
-    with made-up DAP candidates ``dap_f`` (Hz); returns (replaced, candidates after)."""
-    from livevowel.dsp.engine import CLOSED_PHASE_CLEAN_ERROR, _closed_phase_f1_kernel
+def _engine_kernel_case(dap_f, *, noise=0.0, formants=FORMANTS, bandwidths=BANDWIDTHS, f0=400.0):
+    """Run the engine's closed-phase F1 step on a pulse-driven all-pole frame (by default F1 310 Hz,
+    F0 400 Hz) with made-up DAP candidates ``dap_f`` (Hz); returns (replaced, candidates after)."""
+    from livevowel.dsp.engine import (CLOSED_PHASE_CLEAN_ERROR, CLOSED_PHASE_DIFFER, CLOSED_PHASE_ON_HARMONIC,
+                                      CLOSED_PHASE_UPPER, _closed_phase_f1_kernel)
 
-    f0 = 400.0
-    y, _ = _pulse_driven(_all_pole(FORMANTS, BANDWIDTHS, RATE), f0, RATE, 900, jitter=0.1, seed=4)
+    y, _ = _pulse_driven(_all_pole(formants, bandwidths, RATE), f0, RATE, 900, jitter=0.1, seed=4)
     y = y + noise * np.std(y) * np.random.default_rng(5).standard_normal(len(y))
     row = np.ascontiguousarray(y[600:876])                  # n + 1 samples, as the engine passes them
     cf = np.full(6, np.nan)
@@ -186,7 +186,8 @@ def _engine_kernel_case(dap_f, *, noise=0.0):
     cf[:len(dap_f)] = dap_f
     cb[:len(dap_f)] = 30.0
     done = _closed_phase_f1_kernel(row, 0.0, np.ones(275), f0, RATE, 12, 1.3, CLOSED_PHASE_CLEAN_ERROR, 90.0,
-                                   RATE / 2 - 90.0, 700.0, cf, cb)
+                                   RATE / 2 - 90.0, 700.0, CLOSED_PHASE_UPPER, CLOSED_PHASE_ON_HARMONIC,
+                                   CLOSED_PHASE_DIFFER, cf, cb)
     return done, cf
 
 
@@ -209,3 +210,32 @@ def test_engine_step_raises_a_reading_only_on_a_near_exact_fit():
     # CLOSED_PHASE_CLEAN_ERROR; its F1 then reads 344 Hz, upwards as in noise generally)
     done, cf = _engine_kernel_case([290.0, 2790.0], noise=0.1)
     assert not done and cf[0] == 290.0
+
+
+# men's /ɔ/ (Peterson & Barney 1952 means, from memory) with a fourth resonance; bandwidths
+# of the order Klatt (1980) uses (from memory)
+BACK = (570.0, 840.0, 2410.0, 3300.0)
+BACK_BW = (60.0, 80.0, 120.0, 200.0)
+
+
+def test_engine_step_undoes_f1_and_f2_merged_on_the_second_harmonic():
+    # at F0 350 Hz DAP put one resonance on 2 x F0 (measured on the synthesiser: 696 Hz)
+    # where F1 570 and F2 840 Hz lie: the clean fit's candidates replace all of DAP's
+    done, cf = _engine_kernel_case([700.0, 2410.0, 3300.0], formants=BACK, bandwidths=BACK_BW, f0=350.0)
+    assert done
+    np.testing.assert_allclose(cf[:4], BACK, rtol=0.01)
+
+
+def test_engine_step_asks_above_1_3_f0_only_on_a_harmonic_and_only_a_clean_fit():
+    back = dict(formants=BACK, bandwidths=BACK_BW, f0=350.0)
+    # between harmonics (1.43 x F0), though 12 % under the fit's F1: not DAP's locking, left alone
+    done, cf = _engine_kernel_case([500.0, 840.0, 2410.0], **back)
+    assert not done and cf[0] == 500.0
+    # on 2 x F0 but in white noise 26 dB down: the fit is not exact enough to overrule DAP
+    # (without that condition it would: F1 622 Hz, 9 % high, as the fit errs upwards in noise)
+    done, cf = _engine_kernel_case([700.0, 2410.0, 3300.0], noise=0.05, **back)
+    assert not done and cf[0] == 700.0
+    # on 2 x F0 and within 10 % of the clean fit's F1 (F1 640 Hz): DAP's reading stands
+    near = (640.0, 1190.0, 2390.0, 3300.0)      # men's /ʌ/ (Peterson & Barney 1952, from memory)
+    done, cf = _engine_kernel_case([700.0, 1190.0, 2390.0], formants=near, bandwidths=BACK_BW, f0=350.0)
+    assert not done and cf[0] == 700.0

@@ -201,6 +201,26 @@ def test_men_falsetto_f1_below_f0(causal):
             assert np.mean(~(err <= 0.2)) <= 0.05, (vowel, f0)
 
 
+@pytest.mark.parametrize("causal", [False, True])
+def test_harmonic_locking_above_1_3_f0_is_undone(causal):
+    # DAP alone reads men's /ɔ/ (F1 570, F2 840 Hz; Peterson & Barney 1952, from memory)
+    # at F0 350 and 400 Hz with F1 on 2 x F0 (measured: 696 and 799 Hz) and F2 lost,
+    # and a pressed voice's /i/ (open quotient 0.4, F1 270 Hz) at F0 170 Hz on 2 x F0
+    # (343 Hz): the closed-phase fit replaces the candidates there
+    for fm, f0, oq in ((PB["men"]["ɔ"], 350.0, 0.6), (PB["men"]["ɔ"], 400.0, 0.6), (PB["men"]["i"], 170.0, 0.4)):
+        x = synthesize_vowel(formants_hz=fm, f0_hz=f0, duration_s=0.4, rate_hz=RATE, voice="man",
+                             jitter_pct=0.5, shimmer_db=0.2, seed=1, open_quotient=oq)
+        for cp in (AnalysisSettings.closed_phase_below, 0.0):
+            fr = analyze(x, RATE, settings=AnalysisSettings(voice="adult_male", closed_phase_below=cp),
+                         causal=causal).frames
+            v = fr.voiced
+            f1, f2 = np.nanmedian(fr.f1_hz[v]), np.nanmedian(fr.f2_hz[v])
+            if cp:
+                assert abs(f1 / fm[0] - 1) < 0.03 and abs(f2 / fm[1] - 1) < 0.03, (fm, f0, f1, f2)
+            else:
+                assert abs(f1 / (2 * f0) - 1) < 0.03, (fm, f0, f1)      # the failure this fixes
+
+
 @pytest.mark.parametrize("group", ["men", "women"])
 def test_closed_phase_f1_helps_at_high_f0_in_20_db_noise(group):
     # the closed-phase F1 is noise-sensitive (it errs upwards in noise, so it
