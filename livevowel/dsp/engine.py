@@ -134,9 +134,9 @@ F0; /ʊ/, F1 440 Hz, at F0 300 Hz; a pressed voice, whose weak first
 harmonic moves a low F1 onto the second at F0 170-240 Hz). Where DAP's
 lowest candidate lies on a harmonic below ``CLOSED_PHASE_UPPER`` (2.2) x F0,
 a near-exact closed-phase fit that disagrees with it replaces all its
-candidates (the measurements are at ``CLOSED_PHASE_UPPER``; ``livevowel bench
---only conditions`` prints the engine with and without the closed-phase
-step under other voices, noise, room and channel). Men's /ɝ/ (F1 490 Hz) at
+candidates (measured: see ``CLOSED_PHASE_UPPER``; ``livevowel bench --only
+conditions`` prints the engine with and without the closed-phase step under
+other voices, noise, room and channel). Men's /ɝ/ (F1 490 Hz) at
 F0 350 Hz still reads 20 % high, between harmonics, and in noise nothing
 changes: the fit is never exact enough there.
 """
