@@ -29,7 +29,7 @@ from typing import Callable
 import numpy as np
 from scipy import signal
 
-from livevowel.benchmarks.dsp import F0_BANDS, GROUP_VOICES, PB1952, RATE_HZ, _plain_on_frames
+from livevowel.benchmarks.dsp import F0_BANDS, GROUP_VOICES, PB1952, RATE_HZ, _plain_on_frames, frames_off
 
 #: condition -> (label, keyword arguments of synthesize_vowel, channel name or None)
 CONDITIONS: dict[str, tuple[str, dict, str | None]] = {
@@ -75,11 +75,6 @@ def channel(x: np.ndarray, name: str | None, *, seed: int) -> np.ndarray:
     raise ValueError(f"unknown channel {name!r}")
 
 
-def _off(est: np.ndarray, true: np.ndarray) -> np.ndarray:
-    """Frames with F1 or F2 more than 20 % off (or missing)."""
-    return ~np.all(np.abs(est - true) <= 0.2 * true, axis=1)
-
-
 def measure(*, quick: bool) -> list[dict]:
     """One row per condition, group and F0 band: median F1 error (%) and share of frames with F1
     or F2 more than 20 % off, for the engine, the engine without its closed-phase step and plain LPC."""
@@ -113,12 +108,12 @@ def measure(*, quick: bool) -> list[dict]:
                             steady = (fr.time_s >= 0.1) & (fr.time_s <= dur - 0.1)
                             est = np.column_stack([fr.f1_hz[steady], fr.f2_hz[steady]])
                             f1_err[name].append(100.0 * np.abs(est[:, 0] - fm[0]) / fm[0])
-                            off[name].append(_off(est, fm))
+                            off[name].append(frames_off(est, fm))
                             if name == "engine":
                                 plain = _plain_on_frames(x, fr.time_s[steady], rate_hz=res.analysis_rate_hz,
                                                          order=res.order)
                                 f1_err["plain"].append(100.0 * np.abs(plain[:, 0] - fm[0]) / fm[0])
-                                off["plain"].append(_off(plain, fm))
+                                off["plain"].append(frames_off(plain, fm))
                 row = {"condition": cond, "label": label, "group": group, "band": band}
                 for k in f1_err:
                     e = np.concatenate(f1_err[k])

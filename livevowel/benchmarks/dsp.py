@@ -259,6 +259,11 @@ def offline_speed(x: np.ndarray, *, repeat: int) -> dict[str, float]:
             "analysis_rate_hz": float(res.analysis_rate_hz), "order": int(res.order), "method": res.method}
 
 
+def frames_off(est: np.ndarray, true: np.ndarray) -> np.ndarray:
+    """Frames (rows of F1, F2 estimates in Hz) with F1 or F2 more than 20 % off ``true`` (or missing)."""
+    return ~np.all(np.abs(est - true) <= 0.2 * true, axis=1)
+
+
 def accuracy(*, quick: bool, snr_db: float | None = None) -> list[dict]:
     """Rows of the accuracy table: group x F0 band, engine and plain LPC.
 
@@ -298,7 +303,7 @@ def accuracy(*, quick: bool, snr_db: float | None = None) -> list[dict]:
                     live = analyze(x, RATE_HZ, settings=settings, causal=True).frames
                     sh = live.confidence[steady] >= SHOWN_MIN_CONFIDENCE
                     got = np.column_stack([live.f1_hz[steady], live.f2_hz[steady]])
-                    far = ~np.all(np.abs(got - np.asarray(fm[:2])) <= 0.2 * np.asarray(fm[:2]), axis=1)
+                    far = frames_off(got, np.asarray(fm[:2]))
                     shown.append(sh)
                     shown_off.append(sh & far)
                     plain = (_plain_on_frames(x, times, rate_hz=res.analysis_rate_hz, order=res.order)
