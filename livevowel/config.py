@@ -91,7 +91,8 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "closed_phase_below": Key(1.3, "dap only: where the lowest formant reads below this many times F0 (F1 "
                                   "near or under F0, high voices), closed-phase LPC may give it instead, and a "
                                   "near-exact closed-phase fit also replaces formants locked on a harmonic below "
-                                  "2.2 x F0; 0 turns both off", min=0, max=4),
+                                  "2.2 x F0, or an exact one F1 alone between harmonics; 0 turns all off",
+                                  min=0, max=4),
         "taper": Key("gaussian", "analysis window shape: gaussian, hann or hamming",
                      kind=str, choices=("gaussian", "hann", "hamming")),
         "yin_threshold": Key(0.1, "YIN dip threshold for the period search (lower = stricter)", min=0.01, max=0.5),

@@ -172,11 +172,13 @@ def test_engine_setting_is_checked():
         AnalysisSettings(closed_phase_below=-1.0)
 
 
-def _engine_kernel_case(dap_f, *, noise=0.0, formants=FORMANTS, bandwidths=BANDWIDTHS, f0=400.0):
+def _engine_kernel_case(dap_f, *, noise=0.0, formants=FORMANTS, bandwidths=BANDWIDTHS, f0=400.0, agree=None):
     """Run the engine's closed-phase F1 step on a pulse-driven all-pole frame (by default F1 310 Hz,
-    F0 400 Hz) with made-up DAP candidates ``dap_f`` (Hz); returns (replaced, candidates after)."""
-    from livevowel.dsp.engine import (CLOSED_PHASE_CLEAN_ERROR, CLOSED_PHASE_DIFFER, CLOSED_PHASE_ON_HARMONIC,
-                                      CLOSED_PHASE_UPPER, _closed_phase_f1_kernel)
+    F0 400 Hz) with made-up DAP candidates ``dap_f`` (Hz); returns (replaced, candidates after).
+    ``agree``: the between-harmonics agreement (default the engine's; 0 turns that case off)."""
+    from livevowel.dsp.engine import (CLOSED_PHASE_AGREE, CLOSED_PHASE_CLEAN_ERROR, CLOSED_PHASE_DIFFER,
+                                      CLOSED_PHASE_EXACT_ERROR, CLOSED_PHASE_ON_HARMONIC, CLOSED_PHASE_UPPER,
+                                      _closed_phase_f1_kernel)
 
     y, _ = _pulse_driven(_all_pole(formants, bandwidths, RATE), f0, RATE, 900, jitter=0.1, seed=4)
     y = y + noise * np.std(y) * np.random.default_rng(5).standard_normal(len(y))
@@ -187,7 +189,8 @@ def _engine_kernel_case(dap_f, *, noise=0.0, formants=FORMANTS, bandwidths=BANDW
     cb[:len(dap_f)] = 30.0
     done = _closed_phase_f1_kernel(row, 0.0, np.ones(275), f0, RATE, 12, 1.3, CLOSED_PHASE_CLEAN_ERROR, 90.0,
                                    RATE / 2 - 90.0, 700.0, CLOSED_PHASE_UPPER, CLOSED_PHASE_ON_HARMONIC,
-                                   CLOSED_PHASE_DIFFER, cf, cb)
+                                   CLOSED_PHASE_DIFFER, CLOSED_PHASE_AGREE if agree is None else agree,
+                                   CLOSED_PHASE_EXACT_ERROR, cf, cb)
     return done, cf
 
 
@@ -197,9 +200,14 @@ def test_engine_step_replaces_a_high_reading_below_1_3_f0():
     assert done and abs(cf[0] - 310.0) < 1.0 and list(cf[1:3]) == [2790.0, 3310.0]
 
 
-def test_engine_step_leaves_readings_above_1_3_f0_alone():
-    done, cf = _engine_kernel_case([600.0, 2790.0])
+def test_engine_step_leaves_readings_above_1_3_f0_alone_unless_the_fit_is_exact():
+    # 1.5 x F0, between harmonics: with white noise 60 dB down the fit is not exact
+    # enough (CLOSED_PHASE_EXACT_ERROR) and DAP's reading stands ...
+    done, cf = _engine_kernel_case([600.0, 2790.0], noise=0.001)
     assert not done and cf[0] == 600.0
+    # ... on the noise-free frame the fit reads F2 where DAP does and its F1 is taken
+    done, cf = _engine_kernel_case([600.0, 2790.0])
+    assert done and abs(cf[0] - 310.0) < 1.0 and cf[1] == 2790.0
 
 
 def test_engine_step_raises_a_reading_only_on_a_near_exact_fit():
@@ -226,11 +234,8 @@ def test_engine_step_undoes_f1_and_f2_merged_on_the_second_harmonic():
     np.testing.assert_allclose(cf[:4], BACK, rtol=0.01)
 
 
-def test_engine_step_asks_above_1_3_f0_only_on_a_harmonic_and_only_a_clean_fit():
+def test_engine_step_asks_above_1_3_f0_only_on_a_clean_fit():
     back = dict(formants=BACK, bandwidths=BACK_BW, f0=350.0)
-    # between harmonics (1.43 x F0), though 12 % under the fit's F1: not DAP's locking, left alone
-    done, cf = _engine_kernel_case([500.0, 840.0, 2410.0], **back)
-    assert not done and cf[0] == 500.0
     # on 2 x F0 but in white noise 26 dB down: the fit is not exact enough to overrule DAP
     # (without that condition it would: F1 622 Hz, 9 % high, as the fit errs upwards in noise)
     done, cf = _engine_kernel_case([700.0, 2410.0, 3300.0], noise=0.05, **back)
@@ -239,3 +244,22 @@ def test_engine_step_asks_above_1_3_f0_only_on_a_harmonic_and_only_a_clean_fit()
     near = (640.0, 1190.0, 2390.0, 3300.0)      # men's /ʌ/ (Peterson & Barney 1952, from memory)
     done, cf = _engine_kernel_case([700.0, 1190.0, 2390.0], formants=near, bandwidths=BACK_BW, f0=350.0)
     assert not done and cf[0] == 700.0
+
+
+def test_engine_step_between_harmonics_moves_f1_alone_on_an_exact_fit_that_reads_f2_and_f3_as_dap():
+    back = dict(formants=BACK, bandwidths=BACK_BW, f0=350.0)
+    # DAP 12 % under F1 570 Hz, between harmonics (1.43 x F0), F2 and F3 right: F1 alone moves
+    done, cf = _engine_kernel_case([500.0, 840.0, 2410.0], **back)
+    assert done and abs(cf[0] - 570.0) < 1.0 and list(cf[1:3]) == [840.0, 2410.0]
+    done, cf = _engine_kernel_case([500.0, 840.0], **back)            # no F3 from DAP: F2 decides
+    assert done and abs(cf[0] - 570.0) < 1.0
+    # the fit reads F2 (840 Hz) 16 % under DAP's, or F3 (2410 Hz) 20 % under: it is not trusted
+    for dap in ([500.0, 1000.0, 2410.0], [500.0, 840.0, 3000.0]):
+        done, cf = _engine_kernel_case(dap, **back)
+        assert not done and cf[0] == 500.0, dap
+    # white noise 60 dB down: the fit's normalised error (measured 2.6e-6) is above
+    # CLOSED_PHASE_EXACT_ERROR, so the step leaves DAP alone
+    done, cf = _engine_kernel_case([500.0, 840.0, 2410.0], noise=0.001, **back)
+    assert not done and cf[0] == 500.0
+    done, cf = _engine_kernel_case([500.0, 840.0, 2410.0], agree=0.0, **back)     # switched off
+    assert not done and cf[0] == 500.0
