@@ -977,13 +977,11 @@ def _closed_phase_f1_kernel(row, coef, taper, f0, rate, p, below, clean, min_hz,
         return False
     f = fc[0]
     if not low:
-        # DAP's lowest candidate on a harmonic (below upper x F0): only a near-exact fit whose
-        # F1 differs from it replaces DAP's candidates, all of them (F1 and F2 may have merged)
-        if not (err < clean and CLOSED_PHASE_ABOVE * f0 <= f < upper * f0):
+        # DAP's lowest candidate above below x F0 (and under upper x F0): only a fit exact to the
+        # error checked above whose F1 differs from DAP's may change DAP's candidates ...
+        if not (CLOSED_PHASE_ABOVE * f0 <= f < upper * f0 and abs(f - cand_f[0]) > differ * f):
             return False
-        if not abs(f - cand_f[0]) > differ * f:
-            return False
-        if on_h:
+        if on_h:        # ... on a harmonic all of them (F1 and F2 may have merged there)
             for j in range(k):
                 cand_f[j] = fc[j]
                 cand_b[j] = bc[j]
