@@ -49,6 +49,26 @@ class Recording:
         return self.samples.shape[0] / self.rate_hz
 
 
+#: Offset (full scale 1.0) above which a file is said to carry a DC offset
+#: (0.01: -40 dB re full scale; common practice for a 'noticeable' offset).
+DC_OFFSET_WARN = 0.01
+
+
+def _dc_offset(data: np.ndarray, rate: float) -> float:
+    """Largest |mean| over channels of the quietest tenth of 10 ms blocks (where a recording's
+    baseline shows; the mean of the loud ones is the waveform's own asymmetry, e.g. clipping),
+    counted only where it exceeds those blocks' own spread (0 otherwise)."""
+    blk = max(int(rate // 100), 1)
+    nb = data.shape[0] // blk
+    if nb == 0:
+        return float(np.abs(data.mean(axis=0)).max())
+    b = data[: nb * blk].reshape(nb, blk, data.shape[1])
+    means, spread = b.mean(axis=1), b.std(axis=1)
+    quiet = np.argsort(spread.max(axis=1))[: max(nb // 10, 1)]
+    offset = np.abs(np.median(means[quiet], axis=0))
+    return float(np.max(np.where(offset > np.median(spread[quiet], axis=0), offset, 0.0)))
+
+
 def read_audio(path: "str | Path") -> Recording:
     """Read an audio file for analysis.
 
@@ -83,14 +103,17 @@ def read_audio(path: "str | Path") -> Recording:
     if bad.any():
         rec.warnings.append(f"{int(bad.sum())} samples were not finite numbers (NaN or infinite) and were set to 0")
         data[bad] = 0.0
-    peak = np.abs(data).max()
-    if peak >= 0.999:
-        share = float(np.mean(np.abs(data) >= 0.999))
-        if share > 1e-4:
-            rec.warnings.append(f"{share:.2%} of samples are at full scale (clipped); formants near clipped "
-                                "stretches are less reliable; record with lower input gain")
-    if peak == 0.0:
-        rec.warnings.append("the file is silent (all samples are zero)")
+    # clipping and silence: the engine reports both for any input (files, devices)
+    offset = _dc_offset(data, rate)
+    if offset > DC_OFFSET_WARN:
+        rec.warnings.append(f"a DC offset of {offset:.3f} of full scale; formants are measured with it removed, "
+                            "but level_db includes it; remove it (a high-pass filter) for true levels")
+    if data.shape[1] > 1:
+        chan_ms = float(np.mean(data ** 2))
+        mix_ms = float(np.mean(data.mean(axis=1) ** 2))
+        if chan_ms > 0 and mix_ms < 0.01 * chan_ms:
+            rec.warnings.append("the channels cancel in the mono mix (opposite polarity?); "
+                                "extract one channel (e.g. sox IN OUT.wav remix 1) and analyse that")
     return rec
 
 

@@ -197,3 +197,61 @@ def test_help_reads_like_a_unix_tool(tmp_path):
     assert top.returncode == 0 and "analyze" in top.stdout and "usage: livevowel" in top.stdout
     sub = run_cli("analyze", "--help", cwd=tmp_path)
     assert sub.returncode == 0 and "--causal" in sub.stdout and "examples:" in sub.stdout
+
+
+def test_a_folder_input_always_writes_into_a_folder(tmp_path):
+    (tmp_path / "one").mkdir()
+    sf.write(tmp_path / "one" / "take.wav", vowel(seconds=0.4), 16000)
+    sf.write(tmp_path / "solo.wav", vowel(seconds=0.4), 16000)
+    (tmp_path / "existing").mkdir()
+    # a folder holding one take, into a folder that does not exist yet
+    proc = run_cli("analyze", "one", "--frames", "tables", cwd=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    assert [p.name for p in (tmp_path / "tables").iterdir()] == ["take.csv"]
+    # one file into an existing folder, or into a name ending in '/': the table goes inside
+    for out in ("existing", "fresh/"):
+        proc = run_cli("analyze", "solo.wav", "--frames", out, cwd=tmp_path)
+        assert proc.returncode == 0, proc.stderr
+        assert [p.name for p in (tmp_path / out.rstrip("/")).iterdir()] == ["solo.csv"]
+
+
+def test_tables_for_a_folder_into_a_file_is_a_one_line_error(tmp_path):
+    (tmp_path / "one").mkdir()
+    sf.write(tmp_path / "one" / "take.wav", vowel(seconds=0.4), 16000)
+    (tmp_path / "notes.txt").write_text("keep me\n")
+    proc = run_cli("analyze", "one", "--frames", "notes.txt", cwd=tmp_path)
+    assert_clean_error(proc)
+    assert "is a file" in proc.stderr
+    assert (tmp_path / "notes.txt").read_text() == "keep me\n"
+
+
+def test_summary_voiced_share_is_the_tables(tmp_path):
+    x = np.concatenate([np.zeros(8000), vowel(seconds=0.8), np.zeros(8000)])
+    sf.write(tmp_path / "a.wav", x, 16000)
+    proc = run_cli("analyze", "a.wav", "--frames", "a.csv", cwd=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    rows = read_table(tmp_path / "a.csv")
+    share = np.mean([r["voiced"] == "1" for r in rows])
+    assert f"voiced {share:.0%}" in proc.stdout, (share, proc.stdout)
+
+
+def test_each_problem_is_warned_about_once(tmp_path):
+    x = vowel()
+    clipped = np.clip(3.0 * x / np.abs(x).max(), -1, 1)
+    sf.write(tmp_path / "clip.wav", clipped, 16000, subtype="FLOAT")
+    sf.write(tmp_path / "zero.wav", np.zeros(8000), 16000)
+    for name, word in (("clip.wav", "full scale"), ("zero.wav", "silen")):
+        proc = run_cli("analyze", name, cwd=tmp_path)
+        assert proc.returncode == 0, proc.stderr
+        warnings = [ln for ln in proc.stderr.splitlines() if ": warning:" in ln]
+        assert len(warnings) == 1 and word in warnings[0], proc.stderr
+
+
+def test_dc_offset_and_cancelling_channels_are_named(tmp_path):
+    x = vowel()
+    sf.write(tmp_path / "dc.wav", 0.5 * x + 0.3, 16000, subtype="FLOAT")
+    proc = run_cli("analyze", "dc.wav", cwd=tmp_path)
+    assert proc.returncode == 0 and "DC offset of 0.30" in proc.stderr, proc.stderr
+    sf.write(tmp_path / "inv.wav", np.column_stack([x, -x]), 16000, subtype="FLOAT")
+    proc = run_cli("analyze", "inv.wav", cwd=tmp_path)
+    assert proc.returncode == 0 and "channels cancel" in proc.stderr, proc.stderr

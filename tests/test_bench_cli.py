@@ -17,6 +17,8 @@ def test_bench_lists_runs_and_refuses(tmp_path, capsys):
     assert main(["bench", "--only", "targets", "--quick", "--json", str(out)]) == 0
     text = capsys.readouterr().out
     assert "one frame: nearest+hit+score" in text and "goal" in text
+    # a smoke run is no measurement: it names the goals but passes no verdict
+    assert "meets goal" not in text and "MISSES goal" not in text and "(smoke run)" in text
     figures = json.loads(out.read_text())["targets"]
     assert figures and all(isinstance(k, str) for k in figures)
     assert main(["bench", "--only", "nope"]) == 2

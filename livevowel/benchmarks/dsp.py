@@ -82,6 +82,9 @@ F0_BANDS = {"100-250 Hz": (110.0, 170.0, 240.0), "300-400 Hz": (300.0, 350.0, 40
 #: SNR (dB) of the noisy accuracy table, and the goal for its errors (x the clean ones).
 NOISE_SNR_DB = 20.0
 NOISE_GOAL_RATIO = 1.5
+#: A clean median below this (%, under the table's resolution) gets no ratio ("-"):
+#: a --quick run's few frames can read 0.00x % clean.
+RATIO_MIN_CLEAN_PCT = 0.05
 
 #: Frames at or above this confidence show a dot on the practice screen
 #: (the default of config.yaml's ``practice.min_confidence``).
@@ -481,11 +484,13 @@ def run(*, quick: bool, out: Callable[[str], None]) -> dict:
         f"{'F2 med%':>8}{'x clean':>8}{'F2 >20%':>8}")
     noisy = accuracy(quick=quick, snr_db=NOISE_SNR_DB)
     for r, c in zip(noisy, rows):
+        cells = []
         for j in ("f1", "f2"):
-            r[f"engine_{j}_ratio_to_clean"] = r[f"engine_{j}_median_pct"] / max(c[f"engine_{j}_median_pct"], 1e-9)
-        out(f"  {r['group']:<9}{r['band']:<12}{r['frames']:>7} | "
-            f"{r['engine_f1_median_pct']:>8.1f}{r['engine_f1_ratio_to_clean']:>8.2f}{r['engine_f1_over20_pct']:>8.1f}"
-            f"{r['engine_f2_median_pct']:>8.1f}{r['engine_f2_ratio_to_clean']:>8.2f}{r['engine_f2_over20_pct']:>8.1f}")
+            clean = c[f"engine_{j}_median_pct"]
+            r[f"engine_{j}_ratio_to_clean"] = r[f"engine_{j}_median_pct"] / max(clean, 1e-9)
+            ratio = f"{r[f'engine_{j}_ratio_to_clean']:>8.2f}" if clean >= RATIO_MIN_CLEAN_PCT else f"{'-':>8}"
+            cells.append(f"{r[f'engine_{j}_median_pct']:>8.1f}{ratio}{r[f'engine_{j}_over20_pct']:>8.1f}")
+        out(f"  {r['group']:<9}{r['band']:<12}{r['frames']:>7} | " + "".join(cells))
     figures["accuracy_noise"] = {"snr_db": NOISE_SNR_DB, "rows": noisy}
     out("")
     out(f"What the practice screen shows: live-path frames (analyze(causal=True)) at or above its default "

@@ -16,8 +16,10 @@ write one row per frame with the columns
 of each input: duration, voiced share and median F1/F2/F3 of voiced frames.
 
 INPUT may be several files or folders (their audio files, one level deep).
-With more than one input, --frames names a folder that gets one table per
-input, named after it; the work is spread over the machine's cores.
+With more than one input, a folder among the inputs, or an OUT that is a
+folder or ends in '/', --frames names a folder that gets one table per
+input, named after it; the work is spread over the machine's cores. Without
+--frames only the summary is printed.
 
 By default the whole file is used to choose the formant tracks; --causal
 gives exactly what the live path would show for the same audio."""
@@ -67,7 +69,7 @@ def _analyse_one(path: str, settings_values: dict, causal: bool, target_spec: "s
         if target_spec:
             extra = {"nearest_target": _nearest_column(res.frames, target_spec)}
         return {"path": path, "frames": res.frames, "extra": extra, "duration_s": rec.duration_s,
-                "warnings": rec.warnings + list(res.warnings), "voice": res.voice,
+                "warnings": list(dict.fromkeys(rec.warnings + list(res.warnings))), "voice": res.voice,
                 "ceiling_hz": res.ceiling_hz, "error": None}
     except UserError as exc:
         return {"path": path, "error": str(exc)}
@@ -93,13 +95,15 @@ def _summary(result: dict) -> str:
 
     fr = result["frames"]
     n = len(fr)
+    share = float(fr.voiced.mean()) if n else 0.0
     voiced = fr.voiced & np.isfinite(fr.f1_hz)
-    share = float(voiced.mean()) if n else 0.0
     parts = [f"{result['path']}: {result['duration_s']:.2f} s, {n} frames, voiced {share:.0%}"]
     if voiced.any():
         med = [np.nanmedian(getattr(fr, f"f{k}_hz")[voiced]) for k in (1, 2, 3)]
         parts.append("median F1 {:.0f} Hz, F2 {:.0f} Hz, F3 {} Hz".format(
             med[0], med[1], "-" if not np.isfinite(med[2]) else f"{med[2]:.0f}"))
+    elif fr.voiced.any():
+        parts.append("no formants measured")
     else:
         parts.append("no voiced frames")
     parts.append(f"voice {result['voice']}, ceiling {result['ceiling_hz']:.0f} Hz")
@@ -137,11 +141,18 @@ def run(args: argparse.Namespace) -> int:
     files = find_audio_files(inputs)
     many = len(files) > 1
     out_dir = None
-    if args.frames and many:
-        if args.frames == "-":
-            raise UserError("--frames - (standard output) takes one input; give a folder for several")
+    if args.frames == "-" and (many or any(Path(i).is_dir() for i in inputs)):
+        raise UserError("--frames - (standard output) takes one input file; give a folder for several")
+    if args.frames and args.frames != "-" and (many or any(Path(i).is_dir() for i in inputs)
+                                               or args.frames.endswith(("/", os.sep)) or Path(args.frames).is_dir()):
         out_dir = Path(args.frames)
-        out_dir.mkdir(parents=True, exist_ok=True)
+        if out_dir.exists() and not out_dir.is_dir():
+            raise UserError(f"--frames {args.frames}: is a file, but the tables need a folder; "
+                            "give a folder name (it is made if missing)")
+        try:
+            out_dir.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise UserError(f"--frames {args.frames}: cannot make the folder ({exc.strerror})") from None
         stems = [f.stem for f in files]
         dup = {s for s in stems if stems.count(s) > 1}
         if dup:
@@ -181,9 +192,17 @@ def run(args: argparse.Namespace) -> int:
             sys.stdout.write(text)
         elif args.frames:
             target = out_dir / f"{Path(res['path']).stem}.{args.format}" if out_dir else Path(args.frames)
-            write_frames(target, res["frames"], fmt=args.format, extra=res["extra"], meta=meta)
+            try:
+                write_frames(target, res["frames"], fmt=args.format, extra=res["extra"], meta=meta)
+            except OSError as exc:
+                failed += 1
+                print(f"livevowel analyze: error: {target}: cannot write the table "
+                      f"({exc.strerror or exc}); check the folder exists and is writable", file=sys.stderr)
+                continue
         if not args.quiet:
             print(_summary(res), file=sys.stderr if args.frames == "-" else sys.stdout)
+    if not args.frames and not args.quiet and not failed:
+        print("(no table written: --frames OUT.csv writes the per-frame table)", file=sys.stderr)
     if failed:
         return 2 if failed == len(results) else 1
     return 0

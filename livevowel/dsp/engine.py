@@ -858,6 +858,16 @@ def _features_one(plan: _Plan, s: AnalysisSettings, seg: np.ndarray, *, pitch: b
     return out
 
 
+#: Warning of an input whose every frame is digital silence (both paths).
+SILENCE_WARNING = "the input is silent (digital silence throughout); every frame is unvoiced"
+
+
+def _clip_warning(share: float) -> str:
+    """Warning of an input with ``share`` (0..1) of its samples at full scale (both paths)."""
+    return (f"{100 * share:.2f} % of samples are at full scale (clipping); formants near clipped stretches "
+            "are less reliable; record with lower input gain")
+
+
 def _quiet_db(s: AnalysisSettings) -> float:
     """Level (dBFS) below which a frame is unvoiced on level alone (both paths' voicing rule)."""
     return float(s.voicing_floor_db - _GATE_MARGIN_DB)
@@ -1185,8 +1195,8 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
                               warnings=list(sa.warnings))
     warns: list[str] = []
     voice0 = s.voice if s.voice != "auto" else _AUTO_DEFAULT
-    plan, w = _make_plan(s, voice0, rate)
-    warns += w
+    plan, w0 = _make_plan(s, voice0, rate)
+    warns += w0
     xa = resample(x, in_rate_hz=rate, out_rate_hz=plan.rate_hz)
     n_frames = framing.frame_count(len(xa), frame_len=plan.n, hop=plan.hop)
     if n_frames == 0:
@@ -1201,7 +1211,7 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
                                    off_threshold=s.voicing_off, floor_db=s.voicing_floor_db,
                                    margin_db=_GATE_MARGIN_DB)
     if n_frames and np.all(feat["level_db"] <= -119.0):
-        warns.append("input is digital silence; every frame is unvoiced")
+        warns.append(SILENCE_WARNING)
     vidx = np.flatnonzero(voiced)
     k2 = plan.order // 2
     cand_f = np.full((n_frames, k2), np.nan)
@@ -1227,7 +1237,8 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
             measure(plan, xa, np.setdiff1d(vidx, use, assume_unique=True), cand_f, cand_b, evidence)
         else:
             fplan, w = _make_plan(s, voice, rate)
-            warns += [m for m in w if m not in warns]
+            # the provisional plan's notes (its ceiling) no longer apply
+            warns = [m for m in warns if m not in w0] + [m for m in w if m not in warns]
             xb = resample(x, in_rate_hz=rate, out_rate_hz=fplan.rate_hz)
             n2 = framing.frame_count(len(xb), frame_len=fplan.n, hop=fplan.hop)
             k2 = fplan.order // 2
@@ -1244,7 +1255,7 @@ def analyze(samples: Any, rate_hz: float, *, settings: AnalysisSettings | None =
     if len(x) and np.max(np.abs(x)) >= 0.999:
         frac = float(np.mean(np.abs(x) >= 0.999))
         if frac > 1e-4:
-            warns.append(f"{100 * frac:.2f} % of samples are at full scale (clipping); formants may be off")
+            warns.append(_clip_warning(frac))
     return AnalysisResult(frames=track, analysis_rate_hz=float(fplan.rate_hz), ceiling_hz=fplan.ceiling_hz,
                           voice=voice, order=fplan.order, method=s.method, input_rate_hz=float(rate),
                           warnings=warns)
@@ -1526,10 +1537,9 @@ class StreamingAnalyzer:
             self.warnings.append(f"input of {self._n_in} samples is shorter than one "
                                  f"{1e3 * self.settings.window_s:g} ms window; no frames")
         elif self._silent_frames == self._frames_out:
-            self.warnings.append("input is digital silence; every frame is unvoiced")
+            self.warnings.append(SILENCE_WARNING)
         if self._n_in and self._clip_samples / self._n_in > 1e-4:
-            self.warnings.append(f"{100 * self._clip_samples / self._n_in:.2f} % of samples are at full scale "
-                                 "(clipping); formants may be off")
+            self.warnings.append(_clip_warning(self._clip_samples / self._n_in))
         return out
 
     def _assemble(self, *, final: bool) -> FrameTrack:
