@@ -207,6 +207,15 @@ def test_telephone_rate_caps_the_ceiling_with_a_warning():
     assert abs(f1 / 730 - 1) < 0.05 and abs(f2 / 1090 - 1) < 0.05
 
 
+def test_telephone_rate_with_voice_auto_notes_only_the_chosen_voices_ceiling():
+    # auto starts from the adult_female plan (5500 Hz) and settles on the man's (5000 Hz):
+    # only the plan it measured with is worth a note
+    r = analyze(vowel(MEN["ɑ"], rate=8000), 8000, settings=AnalysisSettings(voice="auto"))
+    assert r.voice == "adult_male"
+    notes = [w for w in r.warnings if "limits the formant ceiling" in w]
+    assert len(notes) == 1 and "adult male" in notes[0], r.warnings
+
+
 def test_96k_input_gives_the_same_formants_as_16k():
     a = medians(analyze(vowel(MEN["ɑ"], rate=96000), 96000, settings=MALE).frames)
     b = medians(analyze(vowel(MEN["ɑ"], rate=16000), 16000, settings=MALE).frames)
