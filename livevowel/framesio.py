@@ -1,7 +1,10 @@
 """Writing per-frame tables (CSV and JSON), atomically.
 
 The columns are :data:`livevowel.dsp.types.FRAME_COLUMNS`; cells of measures
-that were not made are empty in CSV and ``null`` in JSON. Extra columns (for
+that were not made are empty in CSV and ``null`` in JSON. That includes the
+formants and bandwidths of unvoiced frames: the engine holds the last reading
+through short unvoiced gaps (``AnalysisSettings.hold_s``) for the screen and
+the tracker, but a table reports what was measured. Extra columns (for
 example the nearest target) may follow.
 """
 
@@ -21,6 +24,9 @@ from livevowel.fileio import write_text_atomic
 
 #: Decimal places per column (Hz to 0.1 Hz, time to 1 ms, level to 0.1 dB).
 _DECIMALS = {"time_s": 3, "level_db": 1}
+
+#: Columns left empty in unvoiced frames (held readings, not measurements).
+_VOICED_ONLY = ("f1_hz", "f2_hz", "f3_hz", "b1_hz", "b2_hz", "b3_hz")
 
 
 def _cell(name: str, value: object) -> "str | float | int | None":
@@ -44,6 +50,8 @@ def frame_rows(track: FrameTrack, extra: "Mapping[str, Sequence[object]] | None"
     rows = []
     for i in range(len(track)):
         row = {name: _cell(name, cols[name][i]) for name in FRAME_COLUMNS}
+        if not row["voiced"]:
+            row.update(dict.fromkeys(_VOICED_ONLY))
         for name, values in extra.items():
             row[name] = _cell(name, values[i])
         rows.append(row)

@@ -42,6 +42,16 @@ def test_json_uses_null_for_unmeasured():
     assert doc["frames"][0]["f1_hz"] is None and doc["meta"]["input"] == "x.wav"
 
 
+def test_readings_held_through_an_unvoiced_gap_are_not_written():
+    import dataclasses
+    import json
+
+    t = make_track()
+    held = dataclasses.replace(t, f1_hz=np.array([731.0, 730.26, 731.0]), b1_hz=np.array([81.0, 80.0, 81.0]))
+    assert frames_to_csv(held) == frames_to_csv(t)        # frame 0 is unvoiced: its held F1 stays out
+    assert json.loads(frames_to_json(held))["frames"][0]["b1_hz"] is None
+
+
 def test_extra_column_length_is_checked():
     with pytest.raises(ValueError, match="extra column"):
         frames_to_csv(make_track(), {"nearest_target": ["i"]})

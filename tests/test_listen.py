@@ -60,8 +60,10 @@ def test_listen_file_source_writes_frames_and_audio(tmp_path, capsys):
     np.testing.assert_array_equal(got.voiced, ref.voiced)
     np.testing.assert_allclose(got.time_s, ref.time_s, atol=5e-4)
     for name in ("f0_hz", "f1_hz", "f2_hz", "f3_hz"):
-        np.testing.assert_allclose(getattr(got, name), getattr(ref, name), atol=0.051, equal_nan=True)
-        assert np.array_equal(np.isnan(getattr(got, name)), np.isnan(getattr(ref, name)))
+        # the table leaves the readings the engine holds through unvoiced gaps empty
+        want = np.where(ref.voiced, getattr(ref, name), np.nan)
+        np.testing.assert_allclose(getattr(got, name), want, atol=0.051, equal_nan=True)
+        assert np.array_equal(np.isnan(getattr(got, name)), np.isnan(want))
     v = got.voiced
     assert np.nanmedian(got.f1_hz[v]) == pytest.approx(PB_A[0], rel=0.1)
     back, rate = sf.read(str(out_wav))
