@@ -207,6 +207,20 @@ def test_telephone_rate_caps_the_ceiling_with_a_warning():
     assert abs(f1 / 730 - 1) < 0.05 and abs(f2 / 1090 - 1) < 0.05
 
 
+@pytest.mark.parametrize("causal", [False, True])
+@pytest.mark.parametrize("voice,fm,f0", [("man", MEN["i"], 120.0), ("woman", WOMEN["i"], 220.0)])
+def test_telephone_rate_still_reads_a_high_f2(voice, fm, f0, causal):
+    # /i/'s F2 (Peterson & Barney 1952, from memory: men 2290, women 2790 Hz) lies above
+    # 0.55 x the 4000 Hz ceiling an 8 kHz input allows; the plausible ranges follow the
+    # voice's own ceiling (engine._Plan.max_hz), so it is still read (was: no frame at all)
+    x = vowel(fm, f0=f0, rate=8000, voice=voice, seed=1)
+    s = AnalysisSettings(voice="adult_male" if voice == "man" else "adult_female")
+    fr = analyze(x, 8000, settings=s, causal=causal).frames
+    have = fr.voiced & np.isfinite(fr.f2_hz)
+    assert have.sum() >= 0.9 * fr.voiced.sum() > 0
+    assert abs(np.median(fr.f1_hz[have]) / fm[0] - 1) < 0.06 and abs(np.median(fr.f2_hz[have]) / fm[1] - 1) < 0.03
+
+
 def test_telephone_rate_with_voice_auto_notes_only_the_chosen_voices_ceiling():
     # auto starts from the adult_female plan (5500 Hz) and settles on the man's (5000 Hz):
     # only the plan it measured with is worth a note

@@ -643,16 +643,19 @@ class _Plan:
     nfft: int = 1024          # DAP's harmonic spectrum
     wspec: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
     harmonics_per_parameter: float = 1.4   # DAP order limit, see DAP_HARMONICS_PER_PARAMETER
+    voice_ceiling_hz: float = 0.0          # the ceiling before an input rate capped it (0: ceiling_hz)
 
     @property
     def max_hz(self) -> np.ndarray:
-        """Highest plausible F1, F2, F3 (Hz): 0.25, 0.55 and 0.8 of the ceiling.
+        """Highest plausible F1, F2, F3 (Hz): 0.25, 0.55 and 0.8 of the voice's ceiling.
 
         Above every Peterson & Barney (1952) group mean (from memory; e.g.
         women's /i/ F2 2790 Hz < 0.55 x 5500 Hz), so only spurious readings
-        are ruled out.
+        are ruled out. The voice's ceiling is the one before a low input
+        rate capped it: a man's /i/ (F2 2290 Hz) on 8 kHz telephone audio
+        (ceiling 4000 Hz, 0.55 x 4000 = 2200 Hz) was otherwise never read.
         """
-        return np.array([0.25, 0.55, 0.8]) * self.ceiling_hz
+        return np.array([0.25, 0.55, 0.8]) * max(self.ceiling_hz, self.voice_ceiling_hz)
 
     @property
     def need_after(self) -> int:
@@ -665,6 +668,7 @@ def _make_plan(s: AnalysisSettings, voice: str, input_rate: int) -> tuple[_Plan,
     nominal = NOMINAL_CEILING_HZ[voice]
     ceiling = float(s.ceiling_hz) if s.ceiling_hz is not None else nominal
     rate = int(round(2 * ceiling))
+    voice_ceiling = ceiling
     if rate > input_rate:
         rate = input_rate
         capped = rate / 2.0
@@ -691,7 +695,7 @@ def _make_plan(s: AnalysisSettings, voice: str, input_rate: int) -> tuple[_Plan,
                  ext=ext, coef=framing.pre_emphasis_coefficient(s.pre_emphasis_hz, rate),
                  taper=taper, ref_hz=ref, tau_min=tau_min, tau_max=tau_max, yin_w=n_pitch - tau_max - 1,
                  nfft=nfft, wspec=_window_power(taper, nfft),
-                 harmonics_per_parameter=DAP_HARMONICS_PER_PARAMETER[voice])
+                 harmonics_per_parameter=DAP_HARMONICS_PER_PARAMETER[voice], voice_ceiling_hz=voice_ceiling)
     return plan, warns
 
 
