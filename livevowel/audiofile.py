@@ -72,6 +72,10 @@ def _dc_offset(data: np.ndarray, rate: float) -> float:
 def read_audio(path: "str | Path") -> Recording:
     """Read an audio file for analysis.
 
+    ``Recording.warnings`` notes NaN/infinite samples (set to 0), a DC offset
+    and channels that cancel in the mono mix; clipping and silence are left to
+    the engine, which notes them for any input.
+
     Raises
     ------
     UserError

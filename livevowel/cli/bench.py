@@ -37,6 +37,7 @@ def run(args: argparse.Namespace) -> int:
     unknown = [n for n in names if n not in SUITES]
     if unknown:
         raise UserError(f"unknown suite {unknown[0]!r}; known: {', '.join(SUITES) or 'none'}")
+
     def out(line: str) -> None:
         if args.quick:    # a smoke run's figures are no measurement: no verdict on them
             line = line.replace("MISSES goal", "(smoke run)").replace("meets goal", "(smoke run)")
