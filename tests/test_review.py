@@ -155,6 +155,14 @@ def test_without_a_task_attempts_are_measured_not_judged(files, tmp_path):
     assert not (tmp_path / DB_NAME).exists()
 
 
+def test_csv_to_standard_output_is_only_csv(files):
+    rc, out, err = _run(["review", str(files["take"]), "--targets", "gae-men", "--no-store", "--csv", "-"])
+    assert rc == 0, err
+    rows = list(csv.reader(io.StringIO(out)))
+    assert len(rows) == 1 + len(SAID) and len({len(r) for r in rows}) == 1    # header + one row per attempt
+    assert "attempts" in err                                                    # the summary went to stderr
+
+
 def test_no_speech_is_reported_and_nothing_stored(files, tmp_path):
     data = tmp_path / "d"
     rc, out, err = _run(["review", str(files["silent"]), "--targets", "gae-men", "--data", str(data)])

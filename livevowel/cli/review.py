@@ -196,25 +196,28 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _report(args, an, res, rec) -> None:
+    """The attempts found, on standard output (standard error when the CSV goes there)."""
     from livevowel.review import format_row
+
+    out = sys.stderr if args.csv == "-" else sys.stdout
 
     s = res.summary
     where = "not stored" if args.no_store else f"session {res.session_id} in {rec.folder}"
     acc = f"{100 * s.accuracy:.0f}%" if s.trials else "-"
     head = (f"{an.path}: {s.attempts} attempts (flagged {s.flagged}), trials {s.trials}, hits {s.hits}, "
             f"accuracy {acc}; {where}")
-    print(head, flush=True)
+    print(head, file=out, flush=True)
     if args.quiet:
         return
     for r in res.rows:
-        print("  " + format_row(r))
+        print("  " + format_row(r), file=out)
     if s.per_block or s.per_target:
-        print("  " + s.format().replace("\n", "\n  "))
+        print("  " + s.format().replace("\n", "\n  "), file=out)
     if res.drill_done is False:
-        print("  the recording ended before the drill was finished")
+        print("  the recording ended before the drill was finished", file=out)
     if res.after_drill:
-        print(f"  {res.after_drill} attempt(s) after the drill's end (stored, not trials)")
-    print(flush=True)
+        print(f"  {res.after_drill} attempt(s) after the drill's end (stored, not trials)", file=out)
+    print(file=out, flush=True)
 
 
 def _write_csv(target: str, rows) -> None:
