@@ -359,6 +359,26 @@ def test_coach_judges_afterwards_beside_the_automatic_result(recorded, tmp_path,
     assert "no attempt 99" in capsys.readouterr().err
 
 
+def test_judging_an_attempt_that_was_no_trial_says_the_counts_stay(recorded, tmp_path, capsys):
+    import shutil
+    import sqlite3
+
+    data = tmp_path / "copy"
+    shutil.copytree(recorded["data"], data)
+    s = Store.open(data)
+    db = s.path
+    s.close()
+    with sqlite3.connect(db) as conn:       # attempt 2 as one made outside a prompt
+        conn.execute("UPDATE attempts SET trial = NULL WHERE session_id = 1 AND number = 2")
+    before = Store.open(data).summary(1)
+    capsys.readouterr()
+    assert main(["sessions", "1", "--attempt", "2", "--result", "miss", "--data", str(data)]) == 0
+    assert "was not a trial" in capsys.readouterr().out
+    after = Store.open(data).summary(1)
+    assert (after.trials, after.hits) == (before.trials, before.hits)
+    assert Store.open(data).attempts(1)[1]["override_hit"] == 0            # the judgement is kept
+
+
 def test_profile_is_stored_with_the_speaker_and_used_again(tmp_path, capsys, recorded):
     from livevowel.profile import CalibrationToken, SpeakerProfile
     from livevowel.targets import load_target_set

@@ -74,6 +74,10 @@ def run(args: argparse.Namespace) -> int:
                 raise UserError(f"{store.path}: cannot write the session record ({exc})") from None
             print(f"session {args.session} attempt {args.attempt}: "
                   + ", ".join(p for p in (args.result and f"result {args.result}", args.note and "note saved") if p))
+            row = next(r for r in store.attempts(args.session) if r["number"] == args.attempt)
+            if args.result and args.result != "auto" and row.get("trial") is None:
+                print(f"  (attempt {args.attempt} was not a trial -- made outside a prompt -- so the judgement is "
+                      "kept with it but the trial counts and accuracy do not change)")
             return 0
         if args.session is not None:
             return _show(store, args.session)
