@@ -20,5 +20,6 @@ _os.environ.setdefault("PYGAME_HIDE_SUPPORT_PROMPT", "1")
 CAUTION = (
     "livevowel is a practice and feedback tool, not a diagnostic or medical device. "
     "Stop if speaking hurts or your voice turns hoarse. "
-    "Decisions about treatment belong to a licensed clinician."
+    "Decisions about treatment belong to a licensed clinician. "
+    "Keep any audio cues at a comfortable, low volume."
 )

@@ -253,6 +253,10 @@ def run_drill(args: argparse.Namespace) -> int:
     except KeyError:
         live = LiveSettings()
     source = source_from_args(args, live=live)
+    if (getattr(args, "source", None) or "mic") == "mic":     # someone is about to speak
+        from livevowel import CAUTION
+
+        print(CAUTION, file=sys.stderr)
     session, rec, extra = prepare(args, warn=warn)
     quiet = getattr(args, "quiet", False)
     if not quiet:
