@@ -241,3 +241,63 @@ def test_trail_joins_a_glide_but_never_bridges_a_gap_in_the_voice(display, fonts
     gap += [frame(0.15 + i * 0.01, math.nan, math.nan, voiced=False, conf=0.0) for i in range(5)]
     gap += [frame(0.20 + i * 0.01, *b) for i in range(5)]
     assert picture(gap) == only_b
+
+
+@pytest.mark.parametrize("size", [(1280, 800), (800, 600)])
+def test_a_long_header_line_keeps_the_trial_state_and_stays_on_the_screen(fonts, tset, size, monkeypatch):
+    from livevowel.feedback import TargetController
+    from livevowel.ui import screen as screen_mod
+
+    c = TargetController(tset.targets, "trap", locked=True)
+    c.label = "say \u201cbat\u201d  \u00b7  block 1/2 trial 3  (2.0 SD, hold 0.20 s, last: miss)"
+    s = PracticeScreen(tset, c, options=ScreenOptions(trail=False), fonts=fonts,
+                       title="Corner vowels with an adaptive hit size and hold (coach-led)  \u00b7  " + tset.title)
+    blits, texts = [], {}
+    real_blit, real_text = screen_mod.D.blit_text, FontBook.text
+
+    def text(self, string, *a, **kw):
+        surf = real_text(self, string, *a, **kw)
+        texts[id(surf)] = string
+        return surf
+
+    def blit(surface, text_surface, *a, **kw):
+        r = real_blit(surface, text_surface, *a, **kw)
+        blits.append((texts.get(id(text_surface), ""), r))
+        return r
+
+    monkeypatch.setattr(FontBook, "text", text)
+    monkeypatch.setattr(screen_mod.D, "blit_text", blit)
+    surf = pygame.Surface(size)
+    s.draw(surf, now_s=0.0)
+    line = [(t, r) for t, r in blits if "block 1/2 trial 3" in t]
+    assert len(line) == 1, [t for t, _ in blits]
+    t, r = line[0]
+    assert r.right <= size[0], (t, r)               # nothing cut off at the edge
+    assert "(coach-led)" not in t                      # the titles gave way first
+    if size[0] >= 1280:
+        assert t.endswith("last: miss)")               # the whole trial state fits at the default size
+
+
+def test_the_current_targets_label_is_drawn_once_when_it_moves_below_its_region(fonts, monkeypatch):
+    from livevowel.feedback import TargetController
+    from livevowel.ui import screen as screen_mod
+
+    # with large text FLEECE's label has no room above its region, at the top of the plane
+    women = load_target_set("gae-women")
+    c = TargetController(women.targets, "fleece", locked=True)
+    s = PracticeScreen(women, c, options=ScreenOptions(trail=False, large_text=True), fonts=fonts)
+    label = s._region_label(women.get("fleece"))
+    drawn = []
+    real_blit = screen_mod.D.blit_text
+
+    def blit(surface, text_surface, x, y, anchor="topleft"):
+        r = real_blit(surface, text_surface, x, y, anchor)
+        drawn.append((text_surface.get_size(), anchor, r))
+        return r
+
+    monkeypatch.setattr(screen_mod.D, "blit_text", blit)
+    s.draw(pygame.Surface(SIZE), now_s=0.0)
+    region_size = fonts.text(label, int(40 * s._layout.u), s.theme.current, bold=True).get_size()
+    at_region = [(a, r) for size, a, r in drawn if size == region_size and a in ("midbottom", "midtop")]
+    assert len(at_region) == 1, at_region
+    assert at_region[0][0] == "midtop"            # below the region, as there is no room above

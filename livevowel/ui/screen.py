@@ -434,10 +434,10 @@ class PracticeScreen:
             if is_cur:
                 # the current target's label sits above its region, where the dot will not cover it
                 top = min(p[1] for p in pts)
-                r = D.blit_text(s, sym, cx, top - 2 * u, "midbottom")
-                if r.top < pr.top:  # no room above: go below
-                    bottom = max(p[1] for p in pts)
-                    r = D.blit_text(s, sym, cx, bottom + 2 * u, "midtop")
+                if top - 2 * u - sym.get_height() >= pr.top:
+                    r = D.blit_text(s, sym, cx, top - 2 * u, "midbottom")
+                else:  # no room above: below (drawn once)
+                    r = D.blit_text(s, sym, cx, max(p[1] for p in pts) + 2 * u, "midtop")
                 if word is not None:
                     D.blit_text(s, word, r.right + 6 * u, r.centery + 4 * u, "midleft")
                 continue
@@ -453,12 +453,23 @@ class PracticeScreen:
         if word:
             D.blit_text(s, F.text(f"as in  {word}", int(26 * u), th.text), r.right + 18 * u,
                         lay.header.centery + 2 * u, "midleft")
-        sub = self.title
+        # second line: titles, then the drill's prompt and trial state (the part a coach watches);
+        # where the line is too wide the titles go first, from the left, then the end is cut with "…"
+        sep = "  \u00b7  "
+        titles = [p for p in self.title.split(sep) if p]
         label = getattr(self.controller, "label", "")
-        if label:
-            sub = f"{sub}  ·  {label}" if sub else label
-        if sub:
-            D.blit_text(s, F.text(sub, int(16 * u), th.muted_text), hx, lay.header.bottom - 4 * u, "bottomleft")
+        parts = titles + [label] if label else titles
+        room = lay.header.width - 2 * hx
+        size16 = int(16 * u)
+        while len(parts) > 1 and F.text(sep.join(parts), size16, th.muted_text).get_width() > room:
+            parts = parts[1:]
+        if parts:
+            line = sep.join(parts)
+            text = F.text(line, size16, th.muted_text)
+            while text.get_width() > room and len(line) > 1:
+                line = line[:-2].rstrip() + "…"
+                text = F.text(line, size16, th.muted_text)
+            D.blit_text(s, text, hx, lay.header.bottom - 4 * u, "bottomleft")
         pygame.draw.rect(s, th.strip, lay.strip)
         self._static = s
 
