@@ -41,7 +41,7 @@ import yaml
 
 from livevowel.errors import UserError
 from livevowel.fileio import write_text_atomic
-from livevowel.targets import GROUPS, TargetSet, load_target_set
+from livevowel.targets import GROUPS, PLAUSIBLE_HZ, TargetSet, load_target_set
 
 __all__ = [
     "CalibrationToken", "Transform", "SpeakerProfile", "fit_transform", "load_profile",
@@ -250,12 +250,39 @@ class SpeakerProfile:
         if self.voice_group not in GROUPS:
             raise UserError(f"voice group {self.voice_group!r} is not one of {', '.join(GROUPS)}")
 
+    @staticmethod
+    def check_tokens(tokens: Iterable[CalibrationToken], reference: TargetSet) -> None:
+        """Refuse new tokens that name no vowel of ``reference`` or cannot be a vowel: F1, F2 (F3)
+        outside the plausible ranges of target sets (``livevowel.targets.PLAUSIBLE_HZ``, the
+        limits ``targets check`` applies) or not ascending.
+
+        Raises
+        ------
+        UserError
+            One line naming the token and what to fix.
+        """
+        for tok in tokens:
+            if reference.find(tok.vowel) is None:
+                raise UserError(f"calibration token {tok.vowel!r}: not a vowel of {reference.id}; use a target id, "
+                                f"IPA symbol or keyword (livevowel targets show {reference.id})")
+            vals = [("f1", tok.f1_hz), ("f2", tok.f2_hz)] + ([("f3", tok.f3_hz)] if tok.f3_hz is not None else [])
+            for name, v in vals:
+                lo, hi = PLAUSIBLE_HZ[name]
+                if not lo <= v <= hi:
+                    raise UserError(f"calibration token {tok.vowel!r}: {name.upper()} {v:g} Hz is outside the "
+                                    f"plausible range {lo:.0f}-{hi:.0f} Hz; check the value")
+            for (n1, v1), (n2, v2) in zip(vals, vals[1:]):
+                if not v1 < v2:
+                    raise UserError(f"calibration token {tok.vowel!r}: {n1.upper()} {v1:g} Hz is not below "
+                                    f"{n2.upper()} {v2:g} Hz; give them in order, VOWEL=F1,F2[,F3]")
+
     @classmethod
     def calibrate(cls, speaker_id: str, tokens: Iterable[CalibrationToken], reference: "TargetSet | str", *,
                   voice_group: str, method: str = "auto", today: "str | None" = None) -> "SpeakerProfile":
         """Make a profile from calibration tokens against a reference set (object, name or path)."""
         ref = load_target_set(reference)
         toks = tuple(tokens)
+        cls.check_tokens(toks, ref)
         date = today or _dt.date.today().isoformat()
         return cls(speaker_id=speaker_id, voice_group=voice_group, created=date, updated=date,
                    tokens=toks, transform=fit_transform(toks, ref, method=method), method=method)
@@ -271,7 +298,9 @@ class SpeakerProfile:
                                 "which is not a shipped set; give that set's file again") from None
         else:
             ref = load_target_set(reference)
-        toks = self.tokens + tuple(tokens)
+        new = tuple(tokens)
+        self.check_tokens(new, ref)
+        toks = self.tokens + new
         return SpeakerProfile(speaker_id=self.speaker_id, voice_group=self.voice_group, created=self.created,
                               updated=today or _dt.date.today().isoformat(), tokens=toks,
                               transform=fit_transform(toks, ref, method=self.method), method=self.method,

@@ -201,6 +201,13 @@ def test_cli_calibrate_creates_and_updates(tmp_path, capsys):
     assert prof.tokens[1].f3_hz == 2810.0 and prof.tokens[0].time
     assert main(["targets", "calibrate", str(p), "--token", "i=310"]) == 2
     assert "expected VOWEL=F1,F2" in capsys.readouterr().err
+    # a token that cannot be a vowel, or names none of the set, is refused and the file kept
+    saved = p.read_bytes()
+    for token, why in (("ɪ=4000,1900", "outside the plausible range"), ("ɪ=1300,1200", "is not below F2"),
+                       ("ɪ=430,2480,2000", "is not below F3"), ("xx=400,1900", "not a vowel of gae-pb-men")):
+        assert main(["targets", "calibrate", str(p), "--token", token]) == 2, token
+        assert why in capsys.readouterr().err, token
+        assert p.read_bytes() == saved, token
 
 
 def test_update_against_a_custom_set_needs_the_file_again(tmp_path):
