@@ -147,6 +147,10 @@ def test_new_data_folder_and_clips_are_private_to_their_owner(tmp_path):
     rec.finish()
     assert stat.S_IMODE(folder.stat().st_mode) == 0o700
     assert stat.S_IMODE((folder / stored["clip"]).stat().st_mode) == 0o600
+    # the database and every folder on the way to a clip, too (they were 644 and 755)
+    assert stat.S_IMODE((folder / st.DB_NAME).stat().st_mode) == 0o600
+    clip_dirs = list((folder / stored["clip"]).relative_to(folder).parents)[:-1]
+    assert clip_dirs and all(stat.S_IMODE((folder / d).stat().st_mode) == 0o700 for d in clip_dirs)
 
 
 def test_clips_can_be_turned_off(tmp_path):

@@ -269,6 +269,23 @@ def _is_write_failure(exc: BaseException) -> bool:
     return isinstance(exc, sqlite3.DatabaseError) and any(w in str(exc).lower() for w in _WRITE_FAILURES)
 
 
+def private_mkdir(folder: Path) -> None:
+    """``folder`` and any missing parents, each made readable by the owner only (0700);
+    folders that exist already keep their mode."""
+    missing = []
+    p = Path(folder)
+    while not p.exists():
+        missing.append(p)
+        if p.parent == p:
+            break
+        p = p.parent
+    for q in reversed(missing):
+        try:
+            q.mkdir(mode=0o700)
+        except FileExistsError:
+            pass
+
+
 class Store:
     """One open session database (use :meth:`open`, or :meth:`memory`)."""
 
@@ -293,7 +310,11 @@ class Store:
                 raise UserError(f"{folder}: no session record here yet; run a drill or practice first "
                                 "(or pass --data DIR)")
             try:
-                folder.mkdir(mode=0o700, parents=True, exist_ok=True)  # voices are personal data
+                private_mkdir(folder)  # voices are personal data
+                # the record itself readable by its owner only (sqlite gives its journal the same mode)
+                os.close(os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600))
+            except FileExistsError:
+                pass
             except OSError as exc:
                 raise UserError(f"{folder}: cannot create the data folder ({exc.strerror}); "
                                 "pass --data DIR with a folder you can write") from None
@@ -704,7 +725,7 @@ class SessionRecorder:
             rel = clip_path(self.session_id, int(row["number"]))
             try:
                 p = self.store.folder / rel
-                p.parent.mkdir(mode=0o700, parents=True, exist_ok=True)
+                private_mkdir(p.parent)
                 write_clip(p, samples, rate_hz)
                 row["clip"] = rel
             except (OSError, UserError) as exc:
