@@ -294,6 +294,17 @@ def test_export_unknown_session(recorded, tmp_path, capsys):
     assert not (tmp_path / "x.csv").exists()
 
 
+def test_practice_drill_headless_stops_after_the_seconds_asked(tmp_path, capsys, recorded):
+    args = ["practice", "--drill", str(recorded["drill"]), "--headless", "--source", f"file:{recorded['wav']}",
+            "--pace", "0", "--data", str(tmp_path)]
+    assert main(args) == 0
+    whole = Store.open(tmp_path).attempts(1)
+    assert main(args + ["--seconds", "2.5"]) == 0          # was ignored without --screenshot
+    cut = Store.open(tmp_path).attempts(2)
+    assert 0 < len(cut) < len(whole) and all(r["start_s"] < 2.5 for r in cut), (len(cut), len(whole))
+    capsys.readouterr()
+
+
 def test_practice_drill_headless_runs_without_a_screen_and_clips_can_be_off(tmp_path, capsys, recorded):
     rc = main(["practice", "--drill", str(recorded["drill"]), "--headless", "--source", f"file:{recorded['short']}",
                "--pace", "0", "--data", str(tmp_path), "--speaker", "S14", "--no-clips"])

@@ -271,7 +271,7 @@ def run_drill(args: argparse.Namespace) -> int:
     interrupted = False
     try:
         summary = run_headless(session, source, analysis=AnalysisSettings.from_config(settings), live=live,
-                               warn=warn)
+                               warn=warn, input_limit_s=getattr(args, "seconds", None))
     except KeyboardInterrupt:
         interrupted = True
         summary = session.finish(stopped=True)

@@ -340,7 +340,7 @@ def feed(session: DrillSession, pipe) -> list[Outcome]:
 
 def run_headless(session: DrillSession, source, *, analysis=None, live=None, poll_s: float = 0.005,
                  timeout_s: float | None = None, warn: Callable[[str], None] | None = None,
-                 on_poll: Callable[[], None] | None = None) -> SessionSummary:
+                 on_poll: Callable[[], None] | None = None, input_limit_s: float | None = None) -> SessionSummary:
     """Run ``session`` from ``source`` through the live path until the drill or the input ends.
 
     Parameters
@@ -359,6 +359,9 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
     on_poll : callable, optional
         Called before the start and after each hand-over of new frames (e.g.
         to show a new prompt).
+    input_limit_s : float, optional
+        Stop once this many seconds of input have been measured (stream time,
+        as ``--seconds`` of the screen commands).
 
     Returns
     -------
@@ -378,7 +381,8 @@ def run_headless(session: DrillSession, source, *, analysis=None, live=None, pol
                 on_poll()
             if session.done or finished:
                 break
-            if timeout_s is not None and time.monotonic() - t0 > timeout_s:
+            if ((timeout_s is not None and time.monotonic() - t0 > timeout_s)
+                    or (input_limit_s is not None and session.now_s >= input_limit_s)):
                 stopped = True
                 break
             time.sleep(poll_s)
