@@ -362,6 +362,9 @@ def test_coach_judges_afterwards_beside_the_automatic_result(recorded, tmp_path,
     assert main(["sessions", "1", "--attempt", "3", "--result", "exclude", "--data", str(data)]) == 0
     r = Store.open(data).attempts(1)[2]
     assert r["counted"] == 0 and r["override_hit"] == 1 and Store.open(data).summary(1).trials == 5
+    from livevowel.cli.export import rows_for_csv   # the export says why it does not count
+
+    assert rows_for_csv(Store.open(data), 1)[2]["result"] == "excluded"
     assert main(["sessions", "1", "--attempt", "3", "--result", "auto", "--data", str(data)]) == 0
     r = Store.open(data).attempts(1)[2]
     assert r["override_hit"] is None and r["override_note"] == "fine by ear" and r["auto_hit"] == 0

@@ -11,8 +11,9 @@ Write every attempt of session SESSION (see 'livevowel sessions') as one
 CSV row: times (seconds of stream time), block, trial, prompt, target, the
 task (hit size, hold), the measures (median F1, F2, F3, F0 over the steady
 part, level), flags, the automatic judgement, the coach's override and
-note beside it, the result that counts, closeness, the nearest target and
-the clip file. Empty cells mean "not measured" or "not judged". The file is
+note beside it, the result that counts (hit, miss, or "excluded" where the
+coach took the attempt out), closeness, the nearest target and the clip
+file. Empty cells mean "not measured" or "not judged". The file is
 written atomically. --track adds each attempt's whole frame track as JSON
 in a last column.
 
@@ -63,7 +64,8 @@ def rows_for_csv(store, session_id: int, *, track: bool = False) -> list[dict]:
         r.update({
             "session": session_id, "speaker": s["speaker_id"], "mode": s["mode"], "drill": s["drill"],
             "block": None if a["block_index"] is None else a["block_index"] + 1,
-            "result": ("hit" if res else "miss") if counts else "",
+            # what counts: hit or miss; "excluded" where the coach took it out; empty otherwise
+            "result": ("hit" if res else "miss") if counts else ("excluded" if not a["counted"] else ""),
         })
         if track:
             r["track_json"] = a["track_json"]
