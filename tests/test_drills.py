@@ -209,6 +209,17 @@ def test_self_paced_pause_and_attempts_during_it():
     assert not run.accepts(1.2) and run.accepts(1.6)
 
 
+def test_input_ending_in_the_last_results_pause_finishes_the_drill():
+    run = DrillRun(drill(repetitions=1), pause_s=1.0, start_s=0.0)     # two items, one block
+    run.attempt(True, now_s=0.5)
+    run.settle(0.8)                     # not the last trial: the drill is cut short, nothing moves
+    assert run.state == "result" and not run.done
+    run.tick(1.5)
+    run.attempt(False, now_s=2.0)
+    run.settle(2.3)                     # the input ended during the last result's pause
+    assert run.done and [e["kind"] for e in run.pop_events()][-2:] == ["block_end", "drill_end"]
+
+
 # -- adaptive rule ---------------------------------------------------------------
 
 def test_adapt_harder_at_80_easier_at_50_same_between():

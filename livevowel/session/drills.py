@@ -677,6 +677,13 @@ class DrillRun:
         if self.mode == "self_paced" and self.state == "result" and now_s - self._result_at >= self.pause_s - 1e-9:
             self._advance(now_s)
 
+    def settle(self, now_s: float) -> None:
+        """The input ended: a self-paced result showing after the drill's last trial ends the
+        drill, as the end of its pause would have (the drill is finished, not cut short)."""
+        if (self.mode == "self_paced" and self.state == "result"
+                and self.block.index == len(self.drill.blocks) - 1 and self._block_over(self.block)):
+            self._advance(now_s)
+
     def next(self, now_s: float) -> None:
         """Coach: go to the next prompt (or block, when the advance rule is met)."""
         if self.state != "done":

@@ -199,6 +199,7 @@ class DrillSession:
         """The input ended (``stopped``: was stopped during it): close an open
         attempt (flagged ``stopped``) and write everything pending."""
         out = [self._on_span(span) for span in self.segmenter.flush(stopped=stopped)]
+        self.run.settle(self.now_s)
         self._flush_pending(final=True)
         return out
 
