@@ -254,12 +254,17 @@ def _chromium():
     return shutil.which("chromium") or shutil.which("chromium-browser")
 
 
-def _screenshot(html: Path, png: Path, tmp: Path) -> np.ndarray:
+def _chromium_or_skip() -> str:
     exe = _chromium()
     if exe is None:
         if os.environ.get("CI") == "true":
             pytest.fail("chromium is not installed on CI (.ci/run installs it)")
         pytest.skip("chromium is not installed here (apt-get install chromium)")
+    return exe
+
+
+def _screenshot(html: Path, png: Path, tmp: Path) -> np.ndarray:
+    exe = _chromium_or_skip()
     cmd = [exe, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
            "--disable-background-networking", "--disable-component-update", "--disable-sync",
            f"--user-data-dir={tmp / 'chromium-profile'}", f"--screenshot={png}", "--window-size=1200,2000",
@@ -285,6 +290,27 @@ def test_report_opens_in_headless_chromium(record, session_report, tmp_path):
     assert _near(img, "#0072B2") > 400
     assert _near(img, "#009E73") > 40
     assert _near(img, "#D55E00") > 40
+
+
+def test_printed_tables_stay_within_the_printed_column(record, session_report, tmp_path):
+    # the print rules applied on screen (chromium has no print-media switch on the command line):
+    # every table must fit the 182 mm column the body gets on paper
+    exe = _chromium_or_skip()
+    src = session_report.html.read_text(encoding="utf-8").replace("@media print {", "@media all {")
+    probe = ("<script>document.body.setAttribute('data-w', [...document.querySelectorAll('table')]"
+             ".map(t => t.className + '=' + t.scrollWidth).join(' ') + ' body=' + document.body.clientWidth);"
+             "</script></body>")
+    sim = tmp_path / "print-sim.html"
+    sim.write_text(src.replace("</body>", probe), encoding="utf-8")
+    cmd = [exe, "--headless", "--no-sandbox", "--disable-gpu", "--no-first-run", "--disable-background-networking",
+           f"--user-data-dir={tmp_path / 'chromium-profile'}", "--window-size=1100,900", "--dump-dom", sim.as_uri()]
+    dom = subprocess.run(cmd, check=True, capture_output=True, text=True, timeout=120).stdout
+    import re
+
+    widths = dict(item.split("=") for item in re.search(r'data-w="([^"]*)"', dom).group(1).split())
+    body = int(widths.pop("body"))
+    assert 600 < body < 720                                    # 182 mm at 96 px per inch: 688 px
+    assert widths and all(int(w) <= body for w in widths.values()), (widths, body)
 
 
 def test_cli_report_and_its_errors(record, tmp_path, capsys):

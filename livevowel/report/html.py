@@ -77,6 +77,10 @@ footer { margin-top: 28px; padding-top: 8px; border-top: 1px solid var(--rule); 
   figure img { max-width: 100%; border: none; }
   table { font-size: 8.5pt; }
   .attempts td { font-size: 8pt; padding: 1px 4px; }
+  /* the attempts table within the printed column: headers and long cells wrap */
+  .attempts { width: 100%; }
+  .attempts th { white-space: normal; font-size: 8pt; padding: 1px 4px; }
+  .attempts td { overflow-wrap: anywhere; }
   thead { display: table-header-group; }
   audio { display: none; }
   .clipname { display: inline; }
