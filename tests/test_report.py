@@ -305,8 +305,6 @@ def test_printed_tables_stay_within_the_printed_column(record, session_report, t
     cmd = [exe, "--headless", "--no-sandbox", "--disable-gpu", "--no-first-run", "--disable-background-networking",
            f"--user-data-dir={tmp_path / 'chromium-profile'}", "--window-size=1100,900", "--dump-dom", sim.as_uri()]
     dom = subprocess.run(cmd, check=True, capture_output=True, text=True, timeout=120).stdout
-    import re
-
     widths = dict(item.split("=") for item in re.search(r'data-w="([^"]*)"', dom).group(1).split())
     body = int(widths.pop("body"))
     assert 600 < body < 720                                    # 182 mm at 96 px per inch: 688 px
@@ -369,3 +367,26 @@ def test_mapped_set_is_rebuilt_from_the_stored_profile():
     assert ts.id == "gae-men" and "unmapped" in note
     ts, note = resolve_target_set({"target_set": "/nowhere/set.yaml"}, None)
     assert ts is None and "not drawn" in note
+
+
+def test_adaptive_changes_are_listed_in_order():
+    import json
+    from types import SimpleNamespace
+
+    from livevowel.report.build import _adapt_table
+
+    ev = [{"kind": "block_start", "stream_s": 0.0, "block_index": 0, "detail_json": "{}"},
+          {"kind": "adapt", "stream_s": 10.0, "block_index": 0, "detail_json": json.dumps(
+              {"direction": "harder", "lever": "hit_size", "from": 1.5, "to": 1.05, "accuracy": 0.8})},
+          {"kind": "adapt", "stream_s": 21.5, "block_index": 0, "detail_json": json.dumps(
+              {"direction": "easier", "lever": "hold", "from": 0.4, "to": 0.3, "accuracy": 0.5})},
+          {"kind": "adapt", "stream_s": 30.0, "block_index": 1, "detail_json": json.dumps(
+              {"direction": "harder", "lever": None, "accuracy": 1.0, "reason": "every lever at its limit"})}]
+    html = _adapt_table(SimpleNamespace(events=ev))
+    rows = re.findall(r"<tr><td.*?</tr>", html)
+    text = [re.sub(r"<[^>]+>", "|", r) for r in rows]
+    assert len(rows) == 3
+    assert "hit size 1.50 SD \u2192 1.05 SD" in text[0] and "80 %" in text[0] and "10.00" in text[0]
+    assert "hold 0.40 s \u2192 0.30 s" in text[1] and "easier" in text[1]
+    assert "every lever at its limit" in text[2] and "|2|" in text[2]
+    assert _adapt_table(SimpleNamespace(events=ev[:1])) == ""        # no changes: no section

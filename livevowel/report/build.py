@@ -227,7 +227,42 @@ def _tables(sd: SessionData) -> str:
         parts.append("<h3>Per block</h3>" + H.tally_table(pb, first="block", css_class="per-block"))
     if not parts:
         parts.append('<p class="note">No prompted trials in this session (attempts were measured, not judged).</p>')
+    parts.append(_adapt_table(sd))
     return "".join(parts)
+
+
+#: How each lever of an adaptive rule is shown (value format, unit).
+_LEVERS = {"hit_size": ("hit size", ".2f", " SD"), "hold": ("hold", ".2f", " s"), "level": ("level", "", "")}
+
+
+def _adapt_table(sd: SessionData) -> str:
+    """The adaptive rule's changes, in order (empty when the drill made none)."""
+    import json
+
+    rows = []
+    for e in sd.events:
+        if e.get("kind") != "adapt":
+            continue
+        try:
+            d = json.loads(e.get("detail_json") or "{}")
+        except ValueError:
+            continue
+        name, fmt, unit = _LEVERS.get(d.get("lever"), (None, "", ""))
+        if name is None:
+            change = H.esc(d.get("reason") or "no change")
+        else:
+            change = (f"{H.esc(name)} {H.esc(format(d['from'], fmt) if fmt else d['from'])}{unit} \u2192 "
+                      f"{H.esc(format(d['to'], fmt) if fmt else d['to'])}{unit}")
+        acc = d.get("accuracy")
+        block = "\u2013" if e.get("block_index") is None else str(e["block_index"] + 1)
+        rows.append(f'<tr><td class="n">{H.num(e.get("stream_s"), ".2f")}</td><td class="n">{H.esc(block)}</td>'
+                    f'<td>{H.esc(d.get("direction"))}</td><td>{change}</td>'
+                    f'<td class="n">{"" if acc is None else f"{100 * acc:.0f} %"}</td></tr>')
+    if not rows:
+        return ""
+    return ('<h3>Adaptive changes</h3><table class="adapt"><thead><tr><th class="n">at s</th><th class="n">block</th>'
+            '<th>direction</th><th>change</th><th class="n">accuracy that moved it</th></tr></thead><tbody>'
+            + "".join(rows) + "</tbody></table>")
 
 
 def _events_note(sd: SessionData) -> str:
