@@ -390,3 +390,27 @@ def test_adaptive_changes_are_listed_in_order():
     assert "hold 0.40 s \u2192 0.30 s" in text[1] and "easier" in text[1]
     assert "every lever at its limit" in text[2] and "|2|" in text[2]
     assert _adapt_table(SimpleNamespace(events=ev[:1])) == ""        # no changes: no section
+
+
+def test_speaker_plane_draws_each_attempt_only_against_its_own_set(record, tmp_path, monkeypatch):
+    from livevowel.report import build as build_mod
+
+    data = tmp_path / "data"
+    shutil.copytree(record["data"], data)
+    rec = SessionRecorder(folder=data, clips=False)          # a later session on the women's set
+    sid = rec.start(speaker_id="S31", voice_group="adult_male", target_set="gae-women", drill="front-pairs",
+                    mode="self_paced", source="file:/home/clinic/S31/late.wav", started_utc="2026-02-01T10:00:00Z")
+    rec.attempt({"number": 1, "start_s": 1.0, "end_s": 1.4, "duration_s": 0.4, "block_index": 0, "block_id": "b",
+                 "trial": 1, "prompt": "fleece", "target_id": "fleece", "hit_size_sd": 2.0, "hold_s": 0.15,
+                 "auto_hit": 0, "counted": 1, "f1_hz": 400.0, "f2_hz": 2500.0, "level_db": -20.0})
+    rec.finish()
+    rec.close()
+    drawn = []
+    real = build_mod.plane_figure
+    monkeypatch.setattr(build_mod, "plane_figure", lambda rows, ts, **kw: drawn.append((len(rows), ts.id)) or
+                        real(rows, ts, **kw))
+    res = build_speaker_report(Store.open(data), "S31", tmp_path / "rep")
+    assert drawn == [(1, "gae-women")]                       # the men's-set attempts are not drawn on it
+    text = res.html.read_text(encoding="utf-8")
+    ids = ", ".join(str(i) for i in record["ids"])
+    assert f"judged against gae-women ({sid})" in text and f"gae-men: {ids}" in text

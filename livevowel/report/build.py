@@ -354,10 +354,23 @@ def build_speaker_report(store, speaker_id: str, out: "str | os.PathLike", *, si
         labels[tid] = f"{t.ipa}  {t.lexical_set}" if t is not None and t.ipa else tid
     trend_png = figure_png(trend_figure(series, labels=labels,
                                         title=f"Speaker {speaker_id}: accuracy per target, session by session"))
-    all_rows = [a for sd in sessions for a in sd.attempts]
     sets = sorted({str(sd.session.get("target_set")) for sd in sessions if sd.session.get("target_set")})
+    # one plane, one set: each attempt is drawn against the regions it was judged by
+    key = next((sd.session.get("target_set") for sd in reversed(sessions) if sd.target_set is not None), None)
+    drawn = [sd for sd in sessions if sd.session.get("target_set") == key] if key is not None else sessions
+    left = [sd for sd in sessions if sd not in drawn]
+    all_rows = [a for sd in drawn for a in sd.attempts]
     plane_png = figure_png(plane_figure(all_rows, ts, title=f"Speaker {speaker_id}: every attempt of "
-                                        f"{len(sessions)} session(s)"))
+                                        f"{len(drawn)} session(s)" + (f" on {key}" if left else "")))
+    plane_note = ""
+    if left:
+        by_set: dict[str, list[str]] = {}
+        for sd in left:
+            by_set.setdefault(str(sd.session.get("target_set") or "no set"), []).append(str(sd.id))
+        plane_note = (f" Drawn here: the sessions judged against {key} ({', '.join(str(sd.id) for sd in drawn)}). "
+                      "Sessions judged against other sets are left out, as their regions differ ("
+                      + "; ".join(f"{k}: {', '.join(v)}" for k, v in by_set.items())
+                      + "); their session reports show them.")
     figs = {"trend": _write_png(out, "trend.png", trend_png), "plane": _write_png(out, "plane.png", plane_png)}
     cl = _Clips(store.folder, sessions, clips, out)
     first, last = sessions[0].session.get("started_utc"), latest.session.get("started_utc")
@@ -402,7 +415,7 @@ def build_speaker_report(store, speaker_id: str, out: "str | os.PathLike", *, si
               "Sessions are spaced evenly in time order; the table gives the counts."),
         trend_table or '<p class="note">No judged trials in these sessions.</p>',
         "<h2>Sessions</h2>", session_table,
-        "<h2>Vowel plane</h2>", H.img(plane_png, f"vowel plane of {speaker_id}", _plane_caption(sessions)),
+        "<h2>Vowel plane</h2>", H.img(plane_png, f"vowel plane of {speaker_id}", _plane_caption(drawn) + plane_note),
     ]
     for sd in sessions:
         s = sd.session
