@@ -56,9 +56,9 @@ def _umask() -> int:
     return mask
 
 
-def write_text_atomic(path: "str | os.PathLike", text: str) -> None:
-    """Write ``text`` to ``path`` atomically (UTF-8)."""
-    with atomic_writer(path) as fh:
+def write_text_atomic(path: "str | os.PathLike", text: str, *, permissions: int | None = None) -> None:
+    """Write ``text`` to ``path`` atomically (UTF-8; ``permissions`` as in :func:`atomic_writer`)."""
+    with atomic_writer(path, permissions=permissions) as fh:
         fh.write(text)
 
 

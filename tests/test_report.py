@@ -414,3 +414,13 @@ def test_speaker_plane_draws_each_attempt_only_against_its_own_set(record, tmp_p
     text = res.html.read_text(encoding="utf-8")
     ids = ", ".join(str(i) for i in record["ids"])
     assert f"judged against gae-women ({sid})" in text and f"gae-men: {ids}" in text
+
+
+def test_reports_are_private_to_their_owner(record, tmp_path):
+    import stat
+
+    res = build_session_report(Store.open(record["data"]), record["ids"][0], tmp_path / "new" / "rep")
+    assert stat.S_IMODE(res.html.parent.stat().st_mode) == 0o700
+    assert stat.S_IMODE((tmp_path / "new").stat().st_mode) == 0o700
+    files = [p for p in res.html.parent.iterdir() if p.is_file()]
+    assert files and all(stat.S_IMODE(p.stat().st_mode) == 0o600 for p in files), files

@@ -117,7 +117,7 @@ def run(args: argparse.Namespace) -> int:
         else:
             from livevowel.fileio import write_text_atomic
 
-            write_text_atomic(out, text)
+            write_text_atomic(out, text, permissions=0o600)   # health-related data: the owner only
             print(f"{what} written to {out} (JSON)", file=sys.stderr)
         return 0
     cols = list(CSV_COLUMNS) + (["track_json"] if args.track else [])
@@ -144,6 +144,6 @@ def write_attempts_csv(target: str, rows: list, cols: list, *, what: str = "atte
     if target == "-":
         write(sys.stdout)
     else:
-        with atomic_writer(target, newline="") as fh:
+        with atomic_writer(target, newline="", permissions=0o600) as fh:   # health-related data
             write(fh)
         print(f"{len(rows)} {what} written to {target}", file=sys.stderr)

@@ -200,18 +200,25 @@ def _session_numbers(sessions: Sequence[SessionData]) -> str:
     return H.numbers(items)
 
 
+#: Reports hold health-related data: files readable by their owner only, in a folder
+#: made 0700 where livevowel makes it (see README, Privacy).
+PRIVATE_FILE = 0o600
+
+
 def _write_png(out: Path, name: str, png: bytes) -> Path:
     from livevowel.fileio import write_bytes_atomic
 
     p = out / name
-    write_bytes_atomic(p, png)
+    write_bytes_atomic(p, png, permissions=PRIVATE_FILE)
     return p
 
 
 def _prepare_out(out: "str | os.PathLike") -> Path:
+    from livevowel.session.store import private_mkdir
+
     out = Path(out)
     try:
-        out.mkdir(parents=True, exist_ok=True)
+        private_mkdir(out)
     except OSError as exc:
         raise UserError(f"{out}: cannot create the report folder ({exc.strerror}); choose another --out") from None
     return out
@@ -328,7 +335,8 @@ def build_session_report(store, session_id: int, out: "str | os.PathLike", *, cl
         _footer(),
     ]
     path = out / REPORT_NAME
-    write_text_atomic(path, H.page(f"livevowel session {sd.id} \u2013 {spk}", "\n".join(body)))
+    write_text_atomic(path, H.page(f"livevowel session {sd.id} \u2013 {spk}", "\n".join(body)),
+                      permissions=PRIVATE_FILE)
     return ReportFiles(path, figs, cl.mode, len(cl.files) if cl.mode != "none" else 0, cl.missing, cl.bytes,
                        [sd.target_set_note] if sd.target_set_note else [])
 
@@ -428,6 +436,7 @@ def build_speaker_report(store, speaker_id: str, out: "str | os.PathLike", *, si
                  _attempts_table(sd, cl)]
     body += ["<h2>Settings of the latest session</h2>", H.settings_block(latest.settings), _footer()]
     path = out / REPORT_NAME
-    write_text_atomic(path, H.page(f"livevowel progress \u2013 {speaker_id}", "\n".join(body)))
+    write_text_atomic(path, H.page(f"livevowel progress \u2013 {speaker_id}", "\n".join(body)),
+                      permissions=PRIVATE_FILE)
     notes = sorted({sd.target_set_note for sd in sessions if sd.target_set_note})
     return ReportFiles(path, figs, cl.mode, len(cl.files) if cl.mode != "none" else 0, cl.missing, cl.bytes, notes)
