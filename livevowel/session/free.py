@@ -48,6 +48,9 @@ class _NoPrompts:
     def tick(self, now_s: float) -> None:
         pass
 
+    def settle(self, now_s: float) -> None:
+        pass
+
     def next(self, now_s: float) -> None:
         pass
 
