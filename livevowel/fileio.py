@@ -66,3 +66,20 @@ def write_bytes_atomic(path: "str | os.PathLike", data: bytes, *, permissions: i
     """Write ``data`` to ``path`` atomically (``permissions`` as in :func:`atomic_writer`)."""
     with atomic_writer(path, mode="wb", permissions=permissions) as fh:
         fh.write(data)
+
+
+def private_mkdir(folder: "str | os.PathLike") -> None:
+    """``folder`` and any missing parents, each made readable by the owner only (0700);
+    folders that exist already keep their mode."""
+    missing = []
+    p = Path(folder)
+    while not p.exists():
+        missing.append(p)
+        if p.parent == p:
+            break
+        p = p.parent
+    for q in reversed(missing):
+        try:
+            q.mkdir(mode=0o700)
+        except FileExistsError:
+            pass

@@ -214,7 +214,7 @@ def _write_png(out: Path, name: str, png: bytes) -> Path:
 
 
 def _prepare_out(out: "str | os.PathLike") -> Path:
-    from livevowel.session.store import private_mkdir
+    from livevowel.fileio import private_mkdir
 
     out = Path(out)
     try:

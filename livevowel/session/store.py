@@ -105,6 +105,7 @@ import numpy as np
 
 from livevowel import __version__
 from livevowel.errors import UserError
+from livevowel.fileio import private_mkdir
 
 SCHEMA_VERSION = 2
 DB_NAME = "sessions.sqlite3"
@@ -267,23 +268,6 @@ def _is_write_failure(exc: BaseException) -> bool:
     if isinstance(exc, OSError):
         return True
     return isinstance(exc, sqlite3.DatabaseError) and any(w in str(exc).lower() for w in _WRITE_FAILURES)
-
-
-def private_mkdir(folder: Path) -> None:
-    """``folder`` and any missing parents, each made readable by the owner only (0700);
-    folders that exist already keep their mode."""
-    missing = []
-    p = Path(folder)
-    while not p.exists():
-        missing.append(p)
-        if p.parent == p:
-            break
-        p = p.parent
-    for q in reversed(missing):
-        try:
-            q.mkdir(mode=0o700)
-        except FileExistsError:
-            pass
 
 
 class Store:
