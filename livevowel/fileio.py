@@ -68,9 +68,14 @@ def write_bytes_atomic(path: "str | os.PathLike", data: bytes, *, permissions: i
         fh.write(data)
 
 
+#: Modes of what holds voices and health-related data: the owner only.
+PRIVATE_FILE_MODE = 0o600
+PRIVATE_DIR_MODE = 0o700
+
+
 def private_mkdir(folder: "str | os.PathLike") -> None:
-    """``folder`` and any missing parents, each made readable by the owner only (0700);
-    folders that exist already keep their mode."""
+    """``folder`` and any missing parents, each made readable by the owner only
+    (:data:`PRIVATE_DIR_MODE`); folders that exist already keep their mode."""
     missing = []
     p = Path(folder)
     while not p.exists():
@@ -80,6 +85,6 @@ def private_mkdir(folder: "str | os.PathLike") -> None:
         p = p.parent
     for q in reversed(missing):
         try:
-            q.mkdir(mode=0o700)
+            q.mkdir(mode=PRIVATE_DIR_MODE)
         except FileExistsError:
             pass

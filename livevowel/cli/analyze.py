@@ -141,10 +141,11 @@ def run(args: argparse.Namespace) -> int:
     files = find_audio_files(inputs)
     many = len(files) > 1
     out_dir = None
-    if args.frames == "-" and (many or any(Path(i).is_dir() for i in inputs)):
+    several = many or any(Path(i).is_dir() for i in inputs)      # a table per input, in a folder
+    if args.frames == "-" and several:
         raise UserError("--frames - (standard output) takes one input file; give a folder for several")
-    if args.frames and args.frames != "-" and (many or any(Path(i).is_dir() for i in inputs)
-                                               or args.frames.endswith(("/", os.sep)) or Path(args.frames).is_dir()):
+    if args.frames and args.frames != "-" and (several or args.frames.endswith(("/", os.sep))
+                                               or Path(args.frames).is_dir()):
         out_dir = Path(args.frames)
         if out_dir.exists() and not out_dir.is_dir():
             raise UserError(f"--frames {args.frames}: is a file, but the tables need a folder; "

@@ -376,9 +376,11 @@ def run_drill_screen(args: argparse.Namespace, *, settings, options, size=(1280,
     mode = "coach" if getattr(args, "coach", False) else "self_paced"
     session, rec, extra = prepare(args, mode=mode, warn=warn)
     ts = extra["target_set"]
+    from livevowel.ui.screen import TITLE_SEP
+
     interrupted, _, summary = run_screen_session(
         args, session, DrillController(session, ts.targets), settings=settings, options=options, live=live,
-        source=source, title=f"{extra['drill'].title}  \u00b7  {ts.title}", size=size)
+        source=source, title=f"{extra['drill'].title}{TITLE_SEP}{ts.title}", size=size)
     return end_session(summary, session=session, recorder=rec, session_id=extra["session_id"],
                        interrupted=interrupted)
 

@@ -115,9 +115,9 @@ def run(args: argparse.Namespace) -> int:
         if out == "-":
             sys.stdout.write(text)
         else:
-            from livevowel.fileio import write_text_atomic
+            from livevowel.fileio import PRIVATE_FILE_MODE, write_text_atomic
 
-            write_text_atomic(out, text, permissions=0o600)   # health-related data: the owner only
+            write_text_atomic(out, text, permissions=PRIVATE_FILE_MODE)
             print(f"{what} written to {out} (JSON)", file=sys.stderr)
         return 0
     cols = list(CSV_COLUMNS) + (["track_json"] if args.track else [])
@@ -133,7 +133,7 @@ def write_attempts_csv(target: str, rows: list, cols: list, *, what: str = "atte
     import csv
     import sys
 
-    from livevowel.fileio import atomic_writer
+    from livevowel.fileio import PRIVATE_FILE_MODE, atomic_writer
 
     def write(fh) -> None:
         w = csv.writer(fh, lineterminator="\n")
@@ -144,6 +144,6 @@ def write_attempts_csv(target: str, rows: list, cols: list, *, what: str = "atte
     if target == "-":
         write(sys.stdout)
     else:
-        with atomic_writer(target, newline="", permissions=0o600) as fh:   # health-related data
+        with atomic_writer(target, newline="", permissions=PRIVATE_FILE_MODE) as fh:
             write(fh)
         print(f"{len(rows)} {what} written to {target}", file=sys.stderr)

@@ -135,7 +135,9 @@ def run_recorded_practice(args: argparse.Namespace, *, settings, options, size) 
                           attempt_settings=r.attempts, speaker_space=r.profile is not None,
                           clip_pre_s=r.clip_pre_s, clip_post_s=r.clip_post_s)
     controller.attach(session)
-    title = judged.title + ("  \u00b7  speaker profile" if r.profile is not None else "") + "  \u00b7  saved"
+    from livevowel.ui.screen import TITLE_SEP
+
+    title = TITLE_SEP.join([judged.title] + (["speaker profile"] if r.profile is not None else []) + ["saved"])
     interrupted, res, summary = run_screen_session(args, session, controller, settings=settings, options=options,
                                                    live=live, source=source, title=title, size=size)
     print(f"\nsession {sid} {'stopped' if interrupted else 'ended'} (free practice, set {judged.id})")

@@ -23,6 +23,7 @@ from typing import Sequence
 
 from livevowel import __version__
 from livevowel.errors import UserError
+from livevowel.fileio import PRIVATE_FILE_MODE, private_mkdir
 from livevowel.report import html as H
 from livevowel.report.data import SessionData, is_trial, per_target, result_of, trend
 from livevowel.report.figures import MARKERS, figure_png, plane_figure, trend_figure
@@ -200,22 +201,15 @@ def _session_numbers(sessions: Sequence[SessionData]) -> str:
     return H.numbers(items)
 
 
-#: Reports hold health-related data: files readable by their owner only, in a folder
-#: made 0700 where livevowel makes it (see README, Privacy).
-PRIVATE_FILE = 0o600
-
-
 def _write_png(out: Path, name: str, png: bytes) -> Path:
     from livevowel.fileio import write_bytes_atomic
 
     p = out / name
-    write_bytes_atomic(p, png, permissions=PRIVATE_FILE)
+    write_bytes_atomic(p, png, permissions=PRIVATE_FILE_MODE)
     return p
 
 
 def _prepare_out(out: "str | os.PathLike") -> Path:
-    from livevowel.fileio import private_mkdir
-
     out = Path(out)
     try:
         private_mkdir(out)
@@ -244,16 +238,11 @@ _LEVERS = {"hit_size": ("hit size", ".2f", " SD"), "hold": ("hold", ".2f", " s")
 
 def _adapt_table(sd: SessionData) -> str:
     """The adaptive rule's changes, in order (empty when the drill made none)."""
-    import json
-
     rows = []
     for e in sd.events:
         if e.get("kind") != "adapt":
             continue
-        try:
-            d = json.loads(e.get("detail_json") or "{}")
-        except ValueError:
-            continue
+        d = _detail(e)
         name, fmt, unit = _LEVERS.get(d.get("lever"), (None, "", ""))
         if name is None:
             change = H.esc(d.get("reason") or "no change")
@@ -272,16 +261,22 @@ def _adapt_table(sd: SessionData) -> str:
             + "".join(rows) + "</tbody></table>")
 
 
+def _detail(event: dict) -> dict:
+    """An event's detail (its ``detail_json``), ``{}`` when it has none or it is unreadable."""
+    import json
+
+    try:
+        d = json.loads(event.get("detail_json") or "{}")
+    except ValueError:
+        return {}
+    return d if isinstance(d, dict) else {}
+
+
 def _events_note(sd: SessionData) -> str:
     msgs = []
     for e in sd.events:
-        if e.get("kind") == "warning" and e.get("detail_json"):
-            import json
-
-            try:
-                msgs.append(str(json.loads(e["detail_json"]).get("message", "")))
-            except ValueError:
-                pass
+        if e.get("kind") == "warning":
+            msgs.append(str(_detail(e).get("message", "")))
     if not sd.session.get("ended_utc"):
         msgs.append("The session has no end time: it was stopped abruptly; everything up to its last recorded "
                     "attempt is kept.")
@@ -336,7 +331,7 @@ def build_session_report(store, session_id: int, out: "str | os.PathLike", *, cl
     ]
     path = out / REPORT_NAME
     write_text_atomic(path, H.page(f"livevowel session {sd.id} \u2013 {spk}", "\n".join(body)),
-                      permissions=PRIVATE_FILE)
+                      permissions=PRIVATE_FILE_MODE)
     return ReportFiles(path, figs, cl.mode, len(cl.files) if cl.mode != "none" else 0, cl.missing, cl.bytes,
                        [sd.target_set_note] if sd.target_set_note else [])
 
@@ -437,6 +432,6 @@ def build_speaker_report(store, speaker_id: str, out: "str | os.PathLike", *, si
     body += ["<h2>Settings of the latest session</h2>", H.settings_block(latest.settings), _footer()]
     path = out / REPORT_NAME
     write_text_atomic(path, H.page(f"livevowel progress \u2013 {speaker_id}", "\n".join(body)),
-                      permissions=PRIVATE_FILE)
+                      permissions=PRIVATE_FILE_MODE)
     notes = sorted({sd.target_set_note for sd in sessions if sd.target_set_note})
     return ReportFiles(path, figs, cl.mode, len(cl.files) if cl.mode != "none" else 0, cl.missing, cl.bytes, notes)

@@ -105,7 +105,7 @@ import numpy as np
 
 from livevowel import __version__
 from livevowel.errors import UserError
-from livevowel.fileio import private_mkdir
+from livevowel.fileio import PRIVATE_FILE_MODE, private_mkdir
 
 SCHEMA_VERSION = 2
 DB_NAME = "sessions.sqlite3"
@@ -296,7 +296,7 @@ class Store:
             try:
                 private_mkdir(folder)  # voices are personal data
                 # the record itself readable by its owner only (sqlite gives its journal the same mode)
-                os.close(os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600))
+                os.close(os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, PRIVATE_FILE_MODE))
             except FileExistsError:
                 pass
             except OSError as exc:
@@ -603,7 +603,7 @@ def write_clip(path: Path, samples: np.ndarray, rate_hz: float) -> None:
 
     buf = io.BytesIO()
     sf.write(buf, np.asarray(samples, dtype=np.float32), int(round(rate_hz)), format="WAV", subtype="PCM_16")
-    write_bytes_atomic(path, buf.getvalue(), permissions=0o600)
+    write_bytes_atomic(path, buf.getvalue(), permissions=PRIVATE_FILE_MODE)
 
 
 class SessionRecorder:

@@ -58,14 +58,14 @@ def run_demo(*, settings: Any, options: Any, headless: bool = False, seconds: fl
     from livevowel.demo import demo_scenario
     from livevowel.feedback import ScriptedController
     from livevowel.ui import loop
-    from livevowel.ui.screen import PracticeScreen
+    from livevowel.ui.screen import TITLE_SEP, PracticeScreen
 
     scenario = demo_scenario()
     ts = load_targets(scenario.set_name)
     loop.init_display(headless=headless)
     tone = make_tone(options, headless=headless)
     screen = PracticeScreen(ts, ScriptedController(ts.targets, scenario.timetable), options=options,
-                            on_hit=lambda e: tone.play(), title=f"demo voice  ·  {ts.title}")
+                            on_hit=lambda e: tone.play(), title=f"demo voice{TITLE_SEP}{ts.title}")
     source = GeneratedVoiceSource(scenario.schedule, rate_hz=16000.0, pace=pace, seed=seed)
     pipeline = make_pipeline(source, settings)
     res = loop.run(screen, pipeline, headless=headless, seconds=seconds, screenshot=screenshot, size=size,
@@ -94,7 +94,9 @@ def run_practice(*, settings: Any, options: Any, targets: str, target_id: str | 
         controller = TargetController(ts.targets)
     loop.init_display(headless=headless)
     tone = make_tone(options, headless=headless)
-    title = ts.title + ("  ·  speaker profile" if profile_path else "")
+    from livevowel.ui.screen import TITLE_SEP
+
+    title = ts.title + (f"{TITLE_SEP}speaker profile" if profile_path else "")
     screen = PracticeScreen(ts, controller, options=options, on_hit=lambda e: tone.play(), title=title)
     pipeline = make_pipeline(source, settings)
     res = loop.run(screen, pipeline, headless=headless, seconds=seconds, screenshot=screenshot, size=size,

@@ -42,6 +42,11 @@ from livevowel.ui.geometry import Plane, Rect, range_for_outlines
 from livevowel.ui.theme import get_theme, next_theme
 
 
+#: Between the parts of a screen title (and of the header's second line); the header
+#: drops parts from the left where the line is too wide.
+TITLE_SEP = "  \u00b7  "
+
+
 @dataclass(frozen=True)
 class ScreenOptions:
     """How the screen looks and judges (the ``practice`` section of the settings)."""
@@ -455,7 +460,7 @@ class PracticeScreen:
                         lay.header.centery + 2 * u, "midleft")
         # second line: titles, then the drill's prompt and trial state (the part a coach watches);
         # where the line is too wide the titles go first, from the left, then the end is cut with "…"
-        sep = "  \u00b7  "
+        sep = TITLE_SEP
         titles = [p for p in self.title.split(sep) if p]
         label = getattr(self.controller, "label", "")
         parts = titles + [label] if label else titles
