@@ -416,6 +416,42 @@ def test_speaker_plane_draws_each_attempt_only_against_its_own_set(record, tmp_p
     assert f"judged against gae-women ({sid})" in text and f"gae-men: {ids}" in text
 
 
+def test_speaker_trend_keeps_one_target_of_two_sets_apart(record, tmp_path, monkeypatch):
+    # FLEECE judged against the men's set (the record's sessions) and later against the women's set:
+    # two lines and two table columns, each with only its own sessions, not one line across both
+    from livevowel.report import build as build_mod
+
+    data = tmp_path / "data"
+    shutil.copytree(record["data"], data)
+    rec = SessionRecorder(folder=data, clips=False)
+    sid = rec.start(speaker_id="S31", voice_group="adult_male", target_set="gae-women", drill="front-pairs",
+                    mode="self_paced", source="file:/home/clinic/S31/late.wav", started_utc="2026-02-01T10:00:00Z")
+    rec.attempt({"number": 1, "start_s": 1.0, "end_s": 1.4, "duration_s": 0.4, "block_index": 0, "block_id": "b",
+                 "trial": 1, "prompt": "fleece", "target_id": "fleece", "hit_size_sd": 2.0, "hold_s": 0.15,
+                 "auto_hit": 0, "counted": 1, "f1_hz": 400.0, "f2_hz": 2500.0, "level_db": -20.0})
+    rec.finish()
+    rec.close()
+    seen = {}
+    real = build_mod.trend_figure
+    monkeypatch.setattr(build_mod, "trend_figure", lambda series, **kw: seen.update(series=series, **kw) or
+                        real(series, **kw))
+    store = Store.open(data)
+    res = build_speaker_report(store, "S31", tmp_path / "rep")
+    series, labels = seen["series"], seen["labels"]
+    men = [p.session_id for p in series["fleece", "gae-men"]]
+    assert [p.session_id for p in series["fleece", "gae-women"]] == [sid]
+    assert sid not in men and men == [s for s in record["ids"] if _sql(store.conn, "target_id", s).get("fleece")]
+    assert labels["fleece", "gae-women"].endswith("(gae-women)") and "FLEECE" in labels["fleece", "gae-men"]
+    p = _parse(res.html)
+    head = [t for c, t in p.tables["trend"][0][1]]
+    assert sum("FLEECE" in h for h in head) == 2
+    late = next(cells for a, cells in p.tables["trend"] if a.get("data-session") == str(sid))
+    col = head.index(labels["fleece", "gae-women"])
+    n, h, acc = _sql(store.conn, "target_id", sid)["fleece"]
+    assert late[col][1] == f"{acc} ({h}/{n})"
+    assert all(t == "\u2013" for i, (c, t) in enumerate(late) if i >= 2 and i != col)
+
+
 def test_reports_are_private_to_their_owner(record, tmp_path):
     import stat
 

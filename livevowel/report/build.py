@@ -350,14 +350,21 @@ def build_speaker_report(store, speaker_id: str, out: "str | os.PathLike", *, si
     out = _prepare_out(out)
     latest = sessions[-1]
     ts = next((sd.target_set for sd in reversed(sessions) if sd.target_set is not None), None)
-    series = trend(sessions)
+    sets = sorted({str(sd.session.get("target_set")) for sd in sessions if sd.session.get("target_set")})
+    # with more than one set, a target id of one set is not joined to the same id of another
+    series = trend(sessions, by_set=len(sets) > 1)
+    set_of = {}
+    for sd in sessions:
+        if sd.target_set is not None:
+            set_of[str(sd.session.get("target_set") or "")] = sd.target_set
     labels = {}
-    for tid in series:
-        t = ts.find(tid) if ts is not None else None
-        labels[tid] = f"{t.ipa}  {t.lexical_set}" if t is not None and t.ipa else tid
+    for tid, name in series:
+        tset = set_of.get(name, ts) if name else ts
+        t = tset.find(tid) if tset is not None else None
+        lab = f"{t.ipa}  {t.lexical_set}" if t is not None and t.ipa else tid
+        labels[tid, name] = f"{lab} ({name})" if name else lab
     trend_png = figure_png(trend_figure(series, labels=labels,
                                         title=f"Speaker {speaker_id}: accuracy per target, session by session"))
-    sets = sorted({str(sd.session.get("target_set")) for sd in sessions if sd.session.get("target_set")})
     # one plane, one set: each attempt is drawn against the regions it was judged by
     key = next((sd.session.get("target_set") for sd in reversed(sessions) if sd.target_set is not None), None)
     drawn = [sd for sd in sessions if sd.session.get("target_set") == key] if key is not None else sessions
@@ -388,7 +395,8 @@ def build_speaker_report(store, speaker_id: str, out: "str | os.PathLike", *, si
     th = "".join(f'<th class="n">{H.esc(labels[t])}</th>' for t in targets)
     trows = []
     for sd in sessions:
-        cells = {t.key: t for t in per_target(sd.attempts)}
+        name = str(sd.session.get("target_set") or "") if len(sets) > 1 else ""
+        cells = {(t.key, name): t for t in per_target(sd.attempts)}
         tds = "".join(
             f'<td class="n">{H.pct(cells[t].hits, cells[t].trials)} <span class="flags">'
             f'({cells[t].hits}/{cells[t].trials})</span></td>' if t in cells and cells[t].trials

@@ -229,12 +229,18 @@ class TrendPoint:
         return self.hits / self.trials if self.trials else float("nan")
 
 
-def trend(sessions: Sequence[SessionData]) -> dict[str, list[TrendPoint]]:
-    """Per target, its accuracy in each session that had trials of it (sessions in the given order)."""
-    out: dict[str, list[TrendPoint]] = {}
+def trend(sessions: Sequence[SessionData], *, by_set: bool = False) -> dict[tuple[str, str], list[TrendPoint]]:
+    """Per target, its accuracy in each session that had trials of it (sessions in the given order).
+
+    Keys are ``(target id, target set name)``; the set name is ``""`` unless
+    ``by_set``, which keeps a target of one set apart from the same target
+    id in another (their regions differ, so their accuracies do not join).
+    """
+    out: dict[tuple[str, str], list[TrendPoint]] = {}
     for sd in sessions:
+        name = str(sd.session.get("target_set") or "") if by_set else ""
         for t in per_target(sd.attempts):
             if t.trials:
-                out.setdefault(t.key, []).append(
+                out.setdefault((t.key, name), []).append(
                     TrendPoint(sd.id, sd.session.get("started_utc") or "", t.trials, t.hits))
     return out

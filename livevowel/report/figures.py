@@ -20,7 +20,7 @@ from __future__ import annotations
 
 import io
 import math
-from typing import Mapping, Sequence
+from typing import Any, Mapping, Sequence
 
 import numpy as np
 
@@ -196,17 +196,19 @@ def plane_figure(rows: Sequence[Mapping], target_set=None, *, title: str = "",
     return fig
 
 
-def trend_figure(series: Mapping[str, Sequence], *, labels: Mapping[str, str] | None = None, title: str = "",
+def trend_figure(series: Mapping[Any, Sequence], *, labels: Mapping[str, str] | None = None, title: str = "",
                  width_in: float = 7.0, height_in: float = 3.6):
     """Accuracy per target across sessions.
 
     Parameters
     ----------
     series : mapping
-        Target id -> sequence of :class:`~livevowel.report.data.TrendPoint`
-        (``session_id``, ``started_utc``, ``trials``, ``hits``).
+        Series key (e.g. the ``(target id, set)`` keys of
+        :func:`livevowel.report.data.trend`) -> sequence of
+        :class:`~livevowel.report.data.TrendPoint` (``session_id``,
+        ``started_utc``, ``trials``, ``hits``).
     labels : mapping, optional, keyword-only
-        Target id -> label (e.g. IPA symbol and lexical set).
+        Series key -> label (e.g. IPA symbol and lexical set; default: the key).
     title : str, keyword-only
 
     Returns
@@ -224,7 +226,7 @@ def trend_figure(series: Mapping[str, Sequence], *, labels: Mapping[str, str] | 
         dodge = 0.07 * (k - (m - 1) / 2) if m > 1 else 0.0   # equal values side by side, not hidden
         x = [pos[p.session_id] + dodge for p in pts]
         y = [100.0 * p.accuracy for p in pts]
-        lab = (labels or {}).get(tid, tid)
+        lab = (labels or {}).get(tid, tid if isinstance(tid, str) else " ".join(str(v) for v in tid if v))
         ax.plot(x, y, color=colour, lw=1.6, marker=marker, ms=6.5, mec="white", mew=0.7, label=lab, zorder=3)
     ax.set_ylim(-4, 104)
     ax.set_yticks([0, 25, 50, 75, 100])
