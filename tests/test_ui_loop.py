@@ -53,6 +53,16 @@ def tset():
     return load_target_set("gae-men")
 
 
+def test_windowed_run_on_an_invisible_driver_says_how_to_run_headless(capsys, monkeypatch):
+    # SDL's dummy driver with no --headless: a window nobody can see waits for keys nobody can press
+    monkeypatch.setenv("SDL_VIDEODRIVER", "dummy")
+    loop.init_display(headless=False)
+    err = capsys.readouterr().err
+    assert "SDL_VIDEODRIVER=dummy" in err and "--headless" in err and err.count("\n") == 1
+    loop.init_display(headless=True)                # asked for: no note
+    assert capsys.readouterr().err == ""
+
+
 def test_caution_is_shown_once_per_user(tset, tmp_path):
     assert os.environ["LIVEVOWEL_DATA"].startswith(str(tmp_path))  # conftest isolates the data folder
     assert loop.caution_needed()

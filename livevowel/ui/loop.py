@@ -94,6 +94,10 @@ class LoopResult:
     input_ended: bool = False
 
 
+#: SDL video drivers that draw into memory only (no window anyone can see or type into).
+INVISIBLE_DRIVERS = ("dummy", "offscreen")
+
+
 def screen_available() -> bool:
     """Whether a window can be opened here.
 
@@ -117,6 +121,15 @@ def init_display(*, headless: bool) -> None:
     elif not screen_available():
         raise UserError("no screen to open a window on (DISPLAY is not set); run from a desktop "
                         "session, or add --headless --screenshot FILE.png")
+    elif os.environ.get("SDL_VIDEODRIVER", "").lower() in INVISIBLE_DRIVERS:
+        import sys
+
+        # the window exists but nobody can see it or press its keys: the caution, Space and Esc
+        # wait for ever unless the run has its own end
+        print(f"livevowel: note: SDL_VIDEODRIVER={os.environ['SDL_VIDEODRIVER']} opens no visible window, "
+              "so its keys (the caution, quit) cannot be pressed; add --headless (with --seconds N or "
+              "--screenshot FILE.png) for a run without a window, or unset SDL_VIDEODRIVER",
+              file=sys.stderr, flush=True)
     import pygame
 
     pygame.display.init()
