@@ -65,3 +65,23 @@ def test_conditions_channels_do_what_they_say():
     noisy = channel(s, "noise30", seed=4)
     assert abs(10 * np.log10(np.mean(s ** 2) / np.mean((noisy - s) ** 2)) - 30.0) < 0.5
     assert np.array_equal(channel(s, None, seed=0), s)
+
+
+def test_accuracy_verdicts_follow_the_issue_s_goals():
+    # the goals as the engine issue states them: medians <= 3 % (F0 up to 250 Hz) / 5 % (300-400 Hz),
+    # <= 2 % of frames more than 20 % off; in 20 dB noise medians <= 1.5 x the clean ones
+    from livevowel.benchmarks.dsp import clean_row_meets_goal, noisy_row_meets_goal
+
+    def row(band, f1, f2, off1=0.0, off2=0.0, **kw):
+        return {"band": band, "engine_f1_median_pct": f1, "engine_f2_median_pct": f2,
+                "engine_f1_over20_pct": off1, "engine_f2_over20_pct": off2, **kw}
+
+    assert clean_row_meets_goal(row("100-250 Hz", 3.0, 2.9, 2.0, 0.0))
+    assert not clean_row_meets_goal(row("100-250 Hz", 3.1, 1.0))
+    assert clean_row_meets_goal(row("300-400 Hz", 4.9, 5.0))
+    assert not clean_row_meets_goal(row("300-400 Hz", 1.0, 1.0, 0.0, 2.1))
+    clean = {"engine_f1_clean_median_pct": 2.0, "engine_f2_clean_median_pct": 0.01}
+    assert noisy_row_meets_goal(row("300-400 Hz", 3.0, 0.07, 3.0, 0.0, **clean))  # 0.01 % counts as 0.05 %
+    assert not noisy_row_meets_goal(row("300-400 Hz", 3.1, 0.07, **clean))
+    assert not noisy_row_meets_goal(row("300-400 Hz", 3.0, 0.08, **clean))
+    assert not noisy_row_meets_goal(row("300-400 Hz", 2.0, 0.01, 3.1, 0.0, **clean))
