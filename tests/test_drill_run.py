@@ -187,6 +187,21 @@ def test_each_attempt_and_the_summary_are_printed(recorded):
     assert "1:fk" in out and "3/4" in out and "fleece" in out and "session 1 finished" in out
 
 
+def test_each_prompt_is_printed_before_the_attempt_that_answers_it(recorded):
+    # a learner at a terminal must read what to say before saying it, not after the result
+    lines = [ln for ln in recorded["out"].splitlines() if ln.startswith(("say ", "#"))]
+    said = [ln for ln in lines if ln.startswith("say ")]
+    judged = [ln for ln in lines if ln.startswith("#") and ("HIT" in ln or "miss" in ln)]
+    assert len(said) >= len(judged) == 6
+    for i, ln in enumerate(lines):
+        if ln in judged:
+            ask = next(a for a in reversed(lines[:i]) if a.startswith("say "))
+            prompt = ask.split("'")[1]
+            assert f"'{prompt}'->" in ln, (ask, ln)
+    assert all(", trial " in a and "(block " in a for a in said)
+    assert len(set(said)) == len(said)                     # each prompt once
+
+
 def test_coach_override_is_stored_beside_the_automatic_result(recorded, tmp_path):
     from livevowel.dsp.engine import analyze
     from livevowel.session.drills import load_drill
@@ -485,3 +500,21 @@ def test_drill_screen_draws_counts_and_pulses_what_is_judged(tmp_path, recorded,
               for k in range(30)], now_s=1e6)
     assert [log[4] for log in list(scr.dot_log)[-30:]] == [False] * 30
     assert scr.counter.hold_progress == 0.0
+
+
+def test_a_hit_nearer_another_centre_does_not_read_sounded_like():
+    # a hit whose nearest region centre is another vowel's (inside the target's hit size, e.g.
+    # after calibration) must not say it "sounded like" that vowel; a miss still does
+    from types import SimpleNamespace as NS
+
+    from livevowel.session.runner import Outcome
+
+    att = NS(start_s=1.0, end_s=1.5, f1_hz=450.0, f2_hz=1100.0)
+    prompt = NS(item=NS(prompt="who'd"), target="goose")
+    for hit, want, not_want in ((True, "in range; nearest centre foot", "sounded like"),
+                                (False, "sounded like foot", "in range")):
+        j = NS(closeness=64.0, nearest_id="foot", target_id="goose", reason="hit" if hit else "outside")
+        line = Outcome(1, att, j, prompt, NS(hit=hit)).line()
+        assert want in line and not_want not in line, line
+    j = NS(closeness=98.0, nearest_id="goose", target_id="goose", reason="hit")
+    assert "sounded like goose" in Outcome(2, att, j, prompt, NS(hit=True)).line()

@@ -264,6 +264,11 @@ def run_drill(args: argparse.Namespace) -> int:
             print(oc.line(), flush=True)
 
         session.on_outcome = show
+
+        def ask(p) -> None:          # the speaker hears of the prompt before answering it
+            print(f"say {p.item.prompt!r}   (block {p.block_index + 1} {p.block_id}, trial {p.trial})", flush=True)
+
+        session.on_prompt = ask
         d = extra["drill"]
         where = "memory only" if rec.in_memory else str(rec.folder)
         print(f"session {extra['session_id']}: drill {d.id} ({d.title}), set {extra['target_set'].id}, "

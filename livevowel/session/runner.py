@@ -71,7 +71,13 @@ class Outcome:
             res = "----"
         meas = (f"F1 {a.f1_hz:4.0f} F2 {a.f2_hz:4.0f} Hz" if math.isfinite(a.f1_hz) and math.isfinite(a.f2_hz)
                 else "F1/F2 not measured")
-        near = f" sounded like {j.nearest_id}" if j.nearest_id else ""
+        target = j.target_id or (self.prompt.target if self.prompt is not None else None)
+        if not j.nearest_id:
+            near = ""
+        elif self.trial is not None and self.trial.hit and j.nearest_id != target:
+            near = f" (in range; nearest centre {j.nearest_id})"   # a hit that "sounded like" another vowel puzzles
+        else:
+            near = f" sounded like {j.nearest_id}"
         if self.trial is not None:
             note = "" if j.reason == "hit" else f" ({j.reason})"
         elif self.prompt is None and j.target_id is None and "target changed" not in j.reason:
@@ -140,6 +146,10 @@ class DrillSession:
         Audio kept before and after each attempt in its clip, seconds.
     on_outcome : callable, optional, keyword-only
         Called with each :class:`Outcome` as it is recorded.
+
+    Attribute ``on_prompt`` (callable, default None) is called with each new
+    :class:`~livevowel.session.drills.Prompt` when it is put to the speaker
+    (a repeat counts as new), before any attempt answers it.
     """
 
     def __init__(self, drill: Drill, target_set, recorder: SessionRecorder, *, mode: str = "self_paced",
@@ -171,6 +181,8 @@ class DrillSession:
         self._number = 0
         self.now_s = start_s
         self.on_outcome = on_outcome
+        self.on_prompt: Callable[[Prompt], None] | None = None
+        self._announced: Prompt | None = None
         self._write_events()
 
     # -- feeding ----------------------------------------------------------------
@@ -210,6 +222,7 @@ class DrillSession:
 
     def repeat(self) -> None:
         self.run.repeat(self.now_s)
+        self._announce()
 
     def skip_block(self) -> None:
         self.run.skip_block(self.now_s)
@@ -302,6 +315,14 @@ class DrillSession:
         for ev in self.run.pop_events():
             self.recorder.event(ev["kind"], stream_s=ev["stream_s"], block_index=ev["block_index"],
                                 detail=ev["detail"])
+        self._announce()
+
+    def _announce(self) -> None:
+        """Call ``on_prompt`` once for each prompt put to the speaker."""
+        p = getattr(self.run, "prompt", None)
+        if p is not None and p is not self._announced and self.on_prompt is not None:
+            self._announced = p
+            self.on_prompt(p)
 
 
 def tapped_pipeline(source, *, analysis=None, live=None, queue_size: int = 200_000):
