@@ -1,5 +1,7 @@
 """The command line as a whole: usage messages and shared options."""
 
+import argparse
+
 import pytest
 
 from livevowel.cli import main
@@ -81,3 +83,33 @@ def test_warm_up_compiles_every_kernel_into_a_fresh_cache(tmp_path):
     assert out.returncode == 0, out.stderr
     before, after, n = out.stdout.split()
     assert (before, after) == ("False", "True") and int(n) >= 20
+
+
+def test_the_caution_is_printed_where_someone_speaks_live(capsys):
+    from livevowel import CAUTION
+    from livevowel.cli import caution_if_live
+
+    for source, live in ((None, True), ("mic", True), ("demo", False), ("file:take.wav", False)):
+        assert caution_if_live(argparse.Namespace(source=source)) is live
+        err = capsys.readouterr().err
+        assert (CAUTION in err) is live and ("hoarse" in err) is live
+
+
+@pytest.mark.parametrize("argv", [
+    ["listen", "--seconds", "0.3"],
+    ["practice", "--targets", "gae-men", "--headless", "--seconds", "0.3"],
+    ["practice", "--drill", "front-vowels-five-vowel-l1", "--headless", "--seconds", "0.3", "--no-save"],
+    ["practice", "--drill", "front-vowels-five-vowel-l1", "--headless", "--seconds", "0.3", "--no-save",
+     "--screenshot", "{tmp}/d.png"],
+    ["drill", "front-vowels-five-vowel-l1", "--no-save", "--quiet"],
+])
+def test_every_live_command_asks_for_the_caution(argv, monkeypatch, tmp_path, capsys):
+    # each command that can listen to a microphone checks its input for the caution (the demo voice
+    # stands in for the microphone here: a check that someone would be speaking live)
+    import livevowel.cli as cli
+
+    asked = []
+    monkeypatch.setattr(cli, "caution_if_live", lambda args: asked.append(args.source) or False)
+    argv = [a.replace("{tmp}", str(tmp_path)) for a in argv]
+    assert main(argv + ["--source", "demo", "--pace", "0"]) in (0, 130)
+    assert asked == ["demo"]

@@ -79,6 +79,17 @@ def add_config_option(parser: argparse.ArgumentParser) -> None:
                         help="read settings from FILE (default: your user config.yaml if present)")
 
 
+def caution_if_live(args: argparse.Namespace) -> bool:
+    """Print the caution (standard error) when the input is the microphone: someone is about
+    to speak. Returns whether it was printed. Files and the demo voice get none."""
+    from livevowel import CAUTION
+
+    live = (getattr(args, "source", None) or "mic") == "mic"
+    if live:
+        print(CAUTION, file=sys.stderr, flush=True)
+    return live
+
+
 #: Commands that run the analysis engine (its compiled kernels are readied first).
 ENGINE_COMMANDS = frozenset({"analyze", "listen", "practice", "demo", "drill", "review", "bench"})
 

@@ -25,7 +25,9 @@ accuracy per block and per target is printed.
 Speakers appear in the record only under a pseudonymous id (--speaker).
 Local rules on health-data privacy apply to the data folder.
 
-This is a practice and feedback tool, not a diagnostic or medical device."""
+livevowel is a practice and feedback tool, not a diagnostic or medical
+device. Stop if speaking hurts or your voice turns hoarse. Decisions about
+treatment belong to a licensed clinician."""
 EPILOG = """\
 examples:
   livevowel drill front-vowels-five-vowel-l1 --speaker S07 --source file:take1.wav --pace 0
@@ -253,10 +255,9 @@ def run_drill(args: argparse.Namespace) -> int:
     except KeyError:
         live = LiveSettings()
     source = source_from_args(args, live=live)
-    if (getattr(args, "source", None) or "mic") == "mic":     # someone is about to speak
-        from livevowel import CAUTION
+    from livevowel.cli import caution_if_live
 
-        print(CAUTION, file=sys.stderr)
+    caution_if_live(args)
     session, rec, extra = prepare(args, warn=warn)
     quiet = getattr(args, "quiet", False)
     if not quiet:
@@ -400,11 +401,10 @@ def run_practice_drill(args: argparse.Namespace) -> int:
         return run_drill(args)
     from livevowel.cli._screen_options import parse_size, settings_and_options
 
-    settings, options = settings_and_options(args)
-    if not getattr(args, "headless", False):
-        from livevowel import CAUTION
+    from livevowel.cli import caution_if_live
 
-        print(CAUTION, file=sys.stderr)
+    settings, options = settings_and_options(args)
+    caution_if_live(args)
     return run_drill_screen(args, settings=settings, options=options, size=parse_size(args.size))
 
 

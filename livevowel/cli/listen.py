@@ -22,7 +22,10 @@ atomically when the session ends: after --seconds, at the end of a file or
 demo source, or on Ctrl-C.
 
 If the device disappears the session keeps what it has measured, says
-"input lost" and tries again every couple of seconds."""
+"input lost" and tries again every couple of seconds.
+
+livevowel is a practice and feedback tool, not a diagnostic or medical
+device. Stop if speaking hurts or your voice turns hoarse."""
 EPILOG = """\
 examples:
   livevowel listen                                  default microphone
@@ -84,6 +87,7 @@ def run(args: argparse.Namespace) -> int:
     from livevowel import config
     from livevowel.audio.options import source_from_args
     from livevowel.audio.pipeline import LivePipeline, LiveSettings
+    from livevowel.cli import caution_if_live
     from livevowel.dsp.engine import AnalysisSettings
     from livevowel.dsp.types import FrameTrack
     from livevowel.errors import RunFailure, UserError
@@ -98,6 +102,7 @@ def run(args: argparse.Namespace) -> int:
     analysis = AnalysisSettings.from_config(settings)
     live = LiveSettings.from_config(settings)
     source = source_from_args(args, live=live)
+    caution_if_live(args)
     pipeline = LivePipeline(source, settings=analysis, live=live, record_to=args.record)
 
     tty = sys.stdout.isatty()

@@ -61,11 +61,9 @@ def configure(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    import sys
-
-    from livevowel import CAUTION
     from livevowel.audio import source_from_args
     from livevowel.audio.pipeline import LiveSettings
+    from livevowel.cli import caution_if_live
     from livevowel.cli._screen_options import parse_size, settings_and_options
     from livevowel.ui.app import run_practice
 
@@ -80,8 +78,7 @@ def run(args: argparse.Namespace) -> int:
     saved = _free_practice_saved(args)
     settings, options = settings_and_options(args)
     size = parse_size(args.size)
-    if args.headless is False:
-        print(CAUTION, file=sys.stderr)
+    caution_if_live(args)
     if saved:
         return run_recorded_practice(args, settings=settings, options=options, size=size)
     source = source_from_args(args, live=LiveSettings.from_config(settings))

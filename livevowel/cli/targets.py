@@ -268,10 +268,9 @@ def _calibrate(args: argparse.Namespace) -> int:
 
 def _listen_tokens(args: argparse.Namespace, path) -> list:
     """``calibrate --listen``: prompt each vowel on the terminal, measure it from the input."""
-    import sys
-
-    from livevowel import CAUTION, config
+    from livevowel import config
     from livevowel.audio.options import source_from_args
+    from livevowel.cli import caution_if_live
     from livevowel.audio.pipeline import LiveSettings
     from livevowel.dsp.engine import AnalysisSettings
     from livevowel.errors import UserError
@@ -297,8 +296,7 @@ def _listen_tokens(args: argparse.Namespace, path) -> list:
     live = LiveSettings.from_config(settings)
     args.source = args.source or "mic"
     source = source_from_args(args, live=live)
-    if args.source == "mic":
-        print(CAUTION, file=sys.stderr)
+    caution_if_live(args)
 
     def prompt(target, take) -> None:
         word = target.words[0] if target.words else target.id
