@@ -172,3 +172,44 @@ def test_pause_hides_the_dot_and_ignores_frames(tset):
     s.handle_event(pygame.event.Event(pygame.KEYDOWN, key=pygame.K_SPACE, unicode=" ", mod=0))
     s.feed(frames_at(tset.get("lot"), 30, t0=1.0), now_s=0.04)
     assert s.counter.hits == 1 and s.dot_visible(0.05)
+
+
+def test_ctrl_c_keeps_the_screenshot_and_says_where(tset, tmp_path):
+    # Ctrl-C (KeyboardInterrupt in the loop) still saves the picture asked for with --screenshot
+    class Interrupted(FramesPipeline):
+        def drain(self):
+            out = super().drain()
+            if len(self.frames) < 20:
+                raise KeyboardInterrupt
+            return out
+
+    s = PracticeScreen(tset, options=ScreenOptions(fps=240))
+    s.controller.select("lot")
+    pipe = Interrupted(frames_at(tset.get("lot"), 40))
+    with pytest.raises(KeyboardInterrupt) as exc:
+        loop.run(s, pipe, headless=True, screenshot=tmp_path / "stopped.png")
+    res = exc.value.result
+    assert res.screenshot == tmp_path / "stopped.png" and res.screenshot.stat().st_size > 1000
+    assert pipe.stopped and res.frames > 0
+    img = pygame.image.load(str(res.screenshot))
+    assert img.get_size() == (1280, 800)
+
+
+def test_a_live_input_that_goes_quiet_still_ends_on_the_clock(tset):
+    # a device lost mid-run delivers no frames; the frames' clock never reaches --seconds, the wall
+    # clock does (before: the headless safety limit, seconds + 30 s)
+    class LostDevice(FramesPipeline):
+        source = type("Mic", (), {"live": True})()
+
+        @property
+        def done(self):
+            return False                  # a live device never ends by itself
+
+    s = PracticeScreen(tset, options=ScreenOptions(fps=60))
+    pipe = LostDevice(frames_at(tset.get("lot"), 5))
+    res = loop.run(s, pipe, headless=True, seconds=0.5)
+    assert res.input_s < 0.5 and res.wall_s < 0.5 + loop.LIVE_LIMIT_GRACE_S + 5.0
+    assert res.wall_s >= 0.5 + loop.LIVE_LIMIT_GRACE_S
+    # not live (a file): only the frames' clock counts, the input ending stops it
+    res = loop.run(s, FramesPipeline(frames_at(tset.get("lot"), 5)), headless=True, seconds=0.5)
+    assert res.input_ended

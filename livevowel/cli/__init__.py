@@ -129,8 +129,11 @@ def main(argv: Sequence[str] | None = None) -> int:
     except UserError as exc:
         print(f"livevowel {args.command}: error: {exc}", file=sys.stderr)
         return exc.exit_code
-    except KeyboardInterrupt:
+    except KeyboardInterrupt as exc:
         print(f"livevowel {args.command}: stopped", file=sys.stderr)
+        shot = getattr(getattr(exc, "result", None), "screenshot", None)   # a stopped screen's last picture
+        if shot is not None:
+            print(f"screenshot: {shot}")
         return 130
     except BrokenPipeError:  # e.g. `livevowel ... | head`
         return 0

@@ -333,7 +333,8 @@ def run_screen_session(args: argparse.Namespace, session, controller, *, setting
                        title: str, size=(1280, 800)):
     """The practice screen with a recording ``session`` riding along the live pipeline.
 
-    Returns ``(interrupted, loop_result or None, summary)``; the session is
+    Returns ``(interrupted, loop_result, summary)`` (the loop's result also after
+    Ctrl-C, None only if the loop never ran); the session is
     finished, an attempt still open when the input was stopped (quit, time
     limit, Ctrl-C) flagged ``stopped``.
     """
@@ -351,16 +352,16 @@ def run_screen_session(args: argparse.Namespace, session, controller, *, setting
     tone = make_tone(options, headless=headless)
     screen = PracticeScreen(session.target_set, controller, options=options, on_hit=lambda e: tone.play(),
                             title=title)
-    res = None
+    res, interrupted = None, False
     try:
         res = loop.run(screen, DrillFeed(session, pipe), headless=headless, seconds=getattr(args, "seconds", None),
                        screenshot=getattr(args, "screenshot", None), size=size,
                        fullscreen=getattr(args, "fullscreen", False), pace=getattr(args, "pace", 1.0) or 0.0,
                        keep_open=False)
-    except KeyboardInterrupt:
-        pass
-    summary = session.finish(stopped=res is None or not res.input_ended)
-    return res is None, res, summary
+    except KeyboardInterrupt as exc:
+        interrupted, res = True, getattr(exc, "result", None)      # loop.Stopped: what ran, its screenshot
+    summary = session.finish(stopped=interrupted or res is None or not res.input_ended)
+    return interrupted, res, summary
 
 
 def run_drill_screen(args: argparse.Namespace, *, settings, options, size=(1280, 800)) -> int:
@@ -384,9 +385,11 @@ def run_drill_screen(args: argparse.Namespace, *, settings, options, size=(1280,
     ts = extra["target_set"]
     from livevowel.ui.screen import TITLE_SEP
 
-    interrupted, _, summary = run_screen_session(
+    interrupted, res, summary = run_screen_session(
         args, session, DrillController(session, ts.targets), settings=settings, options=options, live=live,
         source=source, title=f"{extra['drill'].title}{TITLE_SEP}{ts.title}", size=size)
+    if res is not None and res.screenshot is not None:
+        print(f"screenshot: {res.screenshot}")
     return end_session(summary, session=session, recorder=rec, session_id=extra["session_id"],
                        interrupted=interrupted)
 

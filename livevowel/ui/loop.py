@@ -94,6 +94,28 @@ class LoopResult:
     input_ended: bool = False
 
 
+#: A live input's run with ``seconds`` ends this long after that much wall time at the latest
+#: (frames stop coming while a device is lost; the frames' own clock then never gets there).
+LIVE_LIMIT_GRACE_S = 1.0
+
+
+def _live_input(pipeline: Any) -> bool:
+    """Whether ``pipeline`` (or the pipeline it wraps) reads a live device."""
+    src = getattr(pipeline, "source", None)
+    if src is None:
+        src = getattr(getattr(pipeline, "pipeline", None), "source", None)
+    return bool(getattr(src, "live", False))
+
+
+class Stopped(KeyboardInterrupt):
+    """Ctrl-C during :func:`run`; ``result`` is the :class:`LoopResult` so far (its
+    screenshot, if one was asked for, saved)."""
+
+    def __init__(self, result: LoopResult) -> None:
+        super().__init__()
+        self.result = result
+
+
 #: SDL video drivers that draw into memory only (no window anyone can see or type into).
 INVISIBLE_DRIVERS = ("dummy", "offscreen")
 
@@ -151,8 +173,10 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
     headless : bool, keyword-only
         No window (SDL dummy driver); stops when the input ends or after ``seconds``.
     seconds : float, optional
-        Stop after this much input (seconds of input time); None: until the
-        input ends (headless) or the user quits.
+        Stop after this much input (seconds of input time; a live device's
+        run also stops once this much wall time and ``LIVE_LIMIT_GRACE_S``
+        have passed, input or not); None: until the input ends (headless)
+        or the user quits.
     screenshot : path, optional
         Save the last painted picture here (PNG).
     size : (int, int)
@@ -191,57 +215,72 @@ def run(screen: Any, pipeline: Any, *, headless: bool = False, seconds: float | 
         span = seconds if seconds is not None else 3600.0
         limit_wall = span / pace + 30.0 if pace > 0 else span * 4 + 60.0
     started = False  # the input starts once the caution (if shown) has been read
+    t_started = last_now = t0
+    live = _live_input(pipeline)
     is_full = bool(fullscreen and not headless)
     try:
-        while True:
-            for ev in pygame.event.get():
-                act = screen.handle_event(ev)
-                if act == "quit":
-                    res.quit_by_user = True
-                elif act == "fullscreen" and not headless:
-                    is_full = not is_full
-                    surface = pygame.display.set_mode((0, 0), pygame.FULLSCREEN) if is_full \
-                        else pygame.display.set_mode(windowed, flags)
-                elif act == "pause":
-                    fn = getattr(pipeline, "pause" if screen.paused else "resume", None)
-                    if fn is not None:
-                        fn()
-                elif act == "caution-closed":
-                    remember_caution()
-                elif ev.type == pygame.VIDEORESIZE and not is_full:
-                    windowed = (max(480, ev.w), max(320, ev.h))
-            if res.quit_by_user:
-                break
-            surface = pygame.display.get_surface()
-            if not started and screen.caution_text is None:
-                pipeline.start()
-                started = True
-            frames = pipeline.drain() if started else []
-            now = time.monotonic()
-            screen.feed(frames, now_s=now)
-            screen.set_health(pipeline.health() if started else None)
-            res.frames += len(frames)
-            if frames:
-                res.input_s = float(frames[-1].time_s)
-            d0 = time.perf_counter()
-            screen.draw(surface, now_s=now)
-            pygame.display.flip()
-            res.draw_s.append(time.perf_counter() - d0)
-            res.ticks += 1
-            if seconds is not None and res.input_s >= seconds:
-                break
-            if started and pipeline.done and not frames:
-                res.input_ended = True
-                if headless or not keep_open:
+        try:
+            while True:
+                for ev in pygame.event.get():
+                    act = screen.handle_event(ev)
+                    if act == "quit":
+                        res.quit_by_user = True
+                    elif act == "fullscreen" and not headless:
+                        is_full = not is_full
+                        surface = pygame.display.set_mode((0, 0), pygame.FULLSCREEN) if is_full \
+                            else pygame.display.set_mode(windowed, flags)
+                    elif act == "pause":
+                        fn = getattr(pipeline, "pause" if screen.paused else "resume", None)
+                        if fn is not None:
+                            fn()
+                    elif act == "caution-closed":
+                        remember_caution()
+                    elif ev.type == pygame.VIDEORESIZE and not is_full:
+                        windowed = (max(480, ev.w), max(320, ev.h))
+                if res.quit_by_user:
                     break
-                screen.message = "the input has ended  ·  Esc to quit"
-            if limit_wall is not None and now - t0 > limit_wall:
-                break
-            # Sleep to the frame rate (also headless: it leaves the CPU to the analysis threads).
-            # When the analysis falls behind (audio waiting), paint at half the rate.
-            health = screen.health
-            behind = health is not None and getattr(health, "backlog_s", 0.0) > BEHIND_S
-            clock.tick(max(10, fps // 2) if behind else fps)
+                surface = pygame.display.get_surface()
+                if not started and screen.caution_text is None:
+                    pipeline.start()
+                    started = True
+                    t_started = time.monotonic()
+                frames = pipeline.drain() if started else []
+                now = time.monotonic()
+                if screen.paused:
+                    t_started += now - last_now       # paused time does not count towards seconds
+                last_now = now
+                screen.feed(frames, now_s=now)
+                screen.set_health(pipeline.health() if started else None)
+                res.frames += len(frames)
+                if frames:
+                    res.input_s = float(frames[-1].time_s)
+                d0 = time.perf_counter()
+                screen.draw(surface, now_s=now)
+                pygame.display.flip()
+                res.draw_s.append(time.perf_counter() - d0)
+                res.ticks += 1
+                if seconds is not None and res.input_s >= seconds:
+                    break
+                # a live input that stops delivering (device lost) still ends on the clock, as listen does
+                if (seconds is not None and started and live
+                        and now - t_started >= seconds + LIVE_LIMIT_GRACE_S):
+                    break
+                if started and pipeline.done and not frames:
+                    res.input_ended = True
+                    if headless or not keep_open:
+                        break
+                    screen.message = "the input has ended  ·  Esc to quit"
+                if limit_wall is not None and now - t0 > limit_wall:
+                    break
+                # Sleep to the frame rate (also headless: it leaves the CPU to the analysis threads).
+                # When the analysis falls behind (audio waiting), paint at half the rate.
+                health = screen.health
+                behind = health is not None and getattr(health, "backlog_s", 0.0) > BEHIND_S
+                clock.tick(max(10, fps // 2) if behind else fps)
+        except KeyboardInterrupt:
+            if screenshot is not None:          # a stopped run keeps its last picture too
+                res.screenshot = save_screenshot(pygame.display.get_surface(), screenshot)
+            raise Stopped(res) from None
         if screenshot is not None:
             res.screenshot = save_screenshot(surface, screenshot)
     finally:
