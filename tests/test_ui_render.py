@@ -301,3 +301,27 @@ def test_the_current_targets_label_is_drawn_once_when_it_moves_below_its_region(
     at_region = [(a, r) for size, a, r in drawn if size == region_size and a in ("midbottom", "midtop")]
     assert len(at_region) == 1, at_region
     assert at_region[0][0] == "midtop"            # below the region, as there is no room above
+
+
+@pytest.mark.parametrize("size,large", [((1280, 800), False), ((1280, 800), True), ((800, 600), True),
+                                        ((640, 480), True)])
+def test_the_status_strip_items_never_overlap(fonts, tset, size, large, tmp_path):
+    # large text with every item up (clipping, a noisy SNR, the latency, input lost) used to draw
+    # "F3 – Hz" over "latency 55 ms" at 1280 x 800
+    from types import SimpleNamespace as NS
+
+    s = make(tset, fonts, large_text=large)
+    s.set_health(NS(state="input lost", level_db=-3.0, clipping=True, snr_db=-0.4, latency_s=0.055,
+                    message="", backlog_s=0.0))
+    s.feed([frame(0.01 * i, 730.0, 1090.0) for i in range(12)], now_s=0.0)
+    surf = pygame.Surface(size)
+    s.draw(surf, now_s=0.0)
+    left_end, right_start = s.strip_extent
+    assert left_end <= right_start, (size, large, s.strip_extent)
+    pygame.image.save(surf, str(tmp_path / f"strip-{size[0]}-{int(large)}.png"))
+    if not large and size[0] >= 1280:        # room enough: nothing is left out at the default size
+        s2 = make(tset, fonts)
+        s2.set_health(NS(state="listening", level_db=-20.0, clipping=False, snr_db=35.0, latency_s=0.05,
+                         message="", backlog_s=0.0))
+        s2.draw(surf, now_s=0.0)
+        assert s2.strip_extent[0] < s2.strip_extent[1]

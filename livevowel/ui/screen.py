@@ -562,32 +562,20 @@ class PracticeScreen:
         return c.hits, c.attempts, c.streak, ""
 
     def _draw_strip(self, surface, now_s: float) -> None:
+        """The status strip: input meter, SNR and F0-F3 from the left; state, latency and the
+        help hint from the right. Items that do not fit (large text, a narrow window) are left
+        out, least needed first: latency, the help hint's word (its H stays), the meter's label,
+        the SNR's word; then the numbers close up, the meter narrows and the SNR goes."""
         th, F, lay, u = self.theme, self.fonts, self._layout, self._layout.u
         st = lay.strip
         size = int(19 * u)
         small = int(15 * u)
         cy = st.centery
         h = self.health
-        x = 20 * u
-        # input level
         level = getattr(h, "level_db", None)
         clip = bool(getattr(h, "clipping", False))
-        r = D.blit_text(surface, F.text("input", small, th.muted_text), x, cy, "midleft")
-        mrect = pygame.Rect(int(r.right + 8 * u), int(cy - 7 * u), int(130 * u), int(14 * u))
-        D.level_meter(surface, mrect, level if level is not None else float("nan"), back=th.meter_back,
-                      fill=th.meter_fill, warn=th.warn, clipping=clip)
-        x = mrect.right + 10 * u
-        if clip:
-            r = D.blit_text(surface, F.text("TOO LOUD", size, th.warn, bold=True), x, cy, "midleft")
-            x = r.right + 10 * u
-        # noise
         snr = getattr(h, "snr_db", None)
-        if snr is not None and math.isfinite(snr):
-            col = th.text if snr >= 10 else th.warn
-            word = "" if snr >= 20 else (" (some noise)" if snr >= 10 else " (noisy)")
-            r = D.blit_text(surface, F.text(f"SNR {snr:.0f} dB{word}", size, col), x + 12 * u, cy, "midleft")
-            x = r.right + 10 * u
-        # numbers
+        have_snr = snr is not None and math.isfinite(snr)
         fr = self._dot if self.dot_visible(now_s) else None
         last = self._last_frame
 
@@ -595,24 +583,59 @@ class PracticeScreen:
             return f"{v:.0f}" if v is not None and math.isfinite(v) else "–"
 
         f0 = last.f0_hz if (last is not None and not self.paused and now_s - self._last_arrival <= 0.5) else None
-        parts = [f"F0 {num(f0)}",
-                 f"F1 {num(fr.f1_hz if fr else None)}",
-                 f"F2 {num(fr.f2_hz if fr else None)}",
+        parts = [f"F0 {num(f0)}", f"F1 {num(fr.f1_hz if fr else None)}", f"F2 {num(fr.f2_hz if fr else None)}",
                  f"F3 {num(fr.f3_hz if fr else None)} Hz"]
-        r = D.blit_text(surface, F.text("   ".join(parts), size, th.text, bold=False), x + 16 * u, cy, "midleft")
-        x = r.right
-        # right side: state, latency, help hint
         state = "paused" if self.paused else (getattr(h, "state", None) or "starting")
-        col = th.warn if state in ("input lost", "stopped") else th.text
-        rx = lay.width - 20 * u
-        r = D.blit_text(surface, F.text("H  help", small, th.muted_text), rx, cy, "midright")
-        r = D.blit_text(surface, F.text(state, size, col, bold=True), r.left - 22 * u, cy, "midright")
         lat = getattr(h, "latency_s", None)
-        if not self.show_latency:
-            pass
-        elif lat is not None and math.isfinite(lat):
-            r = D.blit_text(surface, F.text(f"latency {lat * 1000:.0f} ms", size, th.text), r.left - 22 * u, cy,
-                            "midright")
+        show_lat = self.show_latency and lat is not None and math.isfinite(lat)
+        gap = 10 * u
+
+        def plan(level_of_cut: int):
+            """Surfaces for the left and right items at this level of cutting."""
+            # (kind, surface, space before it)
+            left = []
+            if level_of_cut < 3:
+                left.append(("label", F.text("input", small, th.muted_text), 0))
+            left.append(("meter", int((130 if level_of_cut < 6 else 60) * u), 8 * u if left else 0))
+            if clip:
+                left.append(("loud", F.text("TOO LOUD", size, th.warn, bold=True), gap))
+            if have_snr and level_of_cut < 7:
+                col = th.text if snr >= 10 else th.warn
+                word = "" if snr >= 20 or level_of_cut >= 4 else (" (some noise)" if snr >= 10 else " (noisy)")
+                left.append(("snr", F.text(f"SNR {int(round(snr))} dB{word}", size, col), gap + 12 * u))
+            tight = level_of_cut >= 5
+            left.append(("nums", F.text((" " if tight else "   ").join(parts), size, th.text),
+                         gap + (2 if tight else 16) * u))
+            right = [("help", F.text("H  help" if level_of_cut < 2 else "H", small, th.muted_text), 0)]
+            right.append(("state", F.text(state, size, th.warn if state in ("input lost", "stopped") else th.text,
+                                          bold=True), 22 * u))
+            if show_lat and level_of_cut < 1:
+                right.append(("lat", F.text(f"latency {lat * 1000:.0f} ms", size, th.text), 22 * u))
+            return left, right
+
+        def width(items):
+            return sum((surf if k == "meter" else surf.get_width()) + pre for k, surf, pre in items)
+
+        room = lay.width - 40 * u - 16 * u
+        for cut in range(8):
+            left, right = plan(cut)
+            if width(left) + width(right) <= room:
+                break
+        x = 20 * u
+        for k, surf, pre in left:
+            x += pre
+            if k == "meter":
+                mrect = pygame.Rect(int(x), int(cy - 7 * u), surf, int(14 * u))
+                D.level_meter(surface, mrect, level if level is not None else float("nan"), back=th.meter_back,
+                              fill=th.meter_fill, warn=th.warn, clipping=clip)
+                x = mrect.right
+            else:
+                x = D.blit_text(surface, surf, x, cy, "midleft").right
+        rx = lay.width - 20 * u
+        for k, surf, pre in right:
+            rx = D.blit_text(surface, surf, rx - pre, cy, "midright").left
+        #: (where the strip's left items end, where its right items start), px: they never cross
+        self.strip_extent = (float(x), float(rx))
         note = getattr(h, "message", "") or ""
         msg, col = (note, th.warn) if note and state in ("input lost", "stopped", "starting") \
             else (self.message, th.muted_text)
