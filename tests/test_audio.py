@@ -221,6 +221,31 @@ def test_voice_lead_in_is_not_taken_as_the_noise_floor():
     assert m.noise_floor_db > -35.0 and not m.floor_used
 
 
+def test_a_session_that_starts_mid_speech_finds_the_room_at_the_first_pause():
+    # speaking from the first moment: the lead-in "floor" is the voice (about -20 dBFS), which
+    # gave an SNR of about 0 dB and a "noisy" warning for the whole session. No SNR is reported
+    # until a quiet stretch shows the room (white noise at -60 dBFS here); then voice - room.
+    m = HealthMeter(floor_s=1.0, max_floor_db=-35.0)
+    rng = np.random.default_rng(3)
+    vowel = synthesize_vowel(formants_hz=PB_A, f0_hz=120.0, duration_s=2.0, rate_hz=RATE,
+                             peak_dbfs=-12.0).astype(np.float32)
+    room = rng.normal(0.0, 0.001, 2 * RATE).astype(np.float32)          # -60 dBFS
+    blocks = [vowel[i:i + 160] for i in range(0, len(vowel) - 159, 160)]
+    blocks += [room[i:i + 160] for i in range(0, len(room) - 159, 160)]
+    blocks += [vowel[i:i + 160] for i in range(0, len(vowel) - 159, 160)]
+    voice_db = 10 * math.log10(np.mean(vowel.astype(float) ** 2))
+    seen = []
+    for k, b in enumerate(blocks):
+        m.add_block(b, time_s=k * 0.01, rate_hz=RATE, received_s=k * 0.01, segment=0, overflow=False)
+        m.add_voiced_levels(np.array([voice_db]) if k < 200 or k >= 400 else np.array([]))
+        seen.append((m.room_floor_db, m.snr_db))
+    assert m.noise_floor_db > -35.0 and not m.floor_used           # the lead-in was the voice
+    assert all(math.isnan(snr) for _, snr in seen[:200])          # no SNR from a voice as its own floor
+    assert m.room_floor_db == pytest.approx(-60.0, abs=1.0)
+    assert m.snr_db == pytest.approx(voice_db + 60.0, abs=1.5)
+    assert not any(math.isfinite(snr) and snr < 10 for _, snr in seen)   # never a false "noisy"
+
+
 # --------------------------------------------------------------- pipeline
 def test_stream_through_paced_source_equals_offline_causal_analysis(tmp_path):
     y = _vowel_file(tmp_path / "a.wav", PB_A, seconds=1.0, rate=44100)

@@ -8,11 +8,19 @@ Noise floor: the 10th percentile of block levels over the first
 short lead-in is the room). When that estimate is louder than
 ``max_floor_db`` the session probably started with a voice, so the floor is
 reported but not used for gating.
+
+The SNR is measured against the room's floor as the session goes on: the
+quietest one-second stretch of the last ``ROOM_WINDOWS`` (the lead-in among
+them), so that a session that started with the speaker already talking gets
+a floor at the first pause, and a quieter room found later lowers it. Until
+that floor looks like a room (at most ``max_floor_db``) no SNR is reported:
+a "noisy" warning from a voice measured as its own floor would be wrong.
 """
 
 from __future__ import annotations
 
 import math
+from collections import deque
 from dataclasses import dataclass
 
 import numpy as np
@@ -21,6 +29,12 @@ import numpy as np
 STATES = ("starting", "listening", "input lost", "paused", "stopped")
 
 _TINY = 1e-12
+
+#: Length of the stretches the room's floor is measured over after the lead-in, seconds ...
+ROOM_WINDOW_S = 1.0
+#: ... and how many of the latest are kept (the floor is their quietest: it follows a room
+#: that gets noisier within this many stretches).
+ROOM_WINDOWS = 10
 
 
 @dataclass(frozen=True)
@@ -44,8 +58,15 @@ class InputHealth:
         Noise floor measured over the first second, dBFS (``nan`` until measured).
     floor_used : bool
         Whether the floor gates voicing (false when it looks like a voice, not a room).
+    room_floor_db : float
+        The room's floor as the input goes on: the quietest of the last
+        ``ROOM_WINDOWS`` one-second stretches (10th percentile of their block
+        levels), the lead-in included, dBFS; ``nan`` until measured.
     snr_db : float
-        Voiced-frame level minus the noise floor, dB (``nan`` until both are known).
+        Voiced-frame level minus ``room_floor_db``, dB; ``nan`` until both are
+        known, and while that floor still looks like a voice (louder than
+        ``max_floor_db``: the speaker spoke through every stretch measured,
+        e.g. from the first moment).
     overflows : int
         Blocks the device flagged as having lost input samples.
     dropped : int
@@ -76,6 +97,7 @@ class InputHealth:
     clipped_samples: int = 0
     noise_floor_db: float = math.nan
     floor_used: bool = False
+    room_floor_db: float = math.nan
     snr_db: float = math.nan
     overflows: int = 0
     dropped: int = 0
@@ -126,6 +148,9 @@ class HealthMeter:
         self._floor_levels: list[float] = []
         self.noise_floor_db = math.nan
         self.floor_used = False
+        self._window_levels: list[float] = []
+        self._window_end_s = self.floor_s
+        self._room_windows: deque = deque(maxlen=ROOM_WINDOWS)
         self._voiced_db = math.nan
         self.seconds = 0.0
         self.overflows = 0
@@ -159,6 +184,12 @@ class HealthMeter:
                 self._floor_levels.append(self.level_db)
             if end_s >= self.floor_s - 1e-9 or segment > 0:
                 self._settle_floor()
+        else:                           # the room's floor after the lead-in, one-second stretches
+            self._window_levels.append(self.level_db)
+            if end_s >= self._window_end_s + ROOM_WINDOW_S - 1e-9:
+                self._room_windows.append(float(np.percentile(self._window_levels, 10)))
+                self._window_levels = []
+                self._window_end_s = end_s
         # delivered audio against wall time
         if self.pace <= 0:
             return
@@ -176,6 +207,8 @@ class HealthMeter:
         self.noise_floor_db = float(np.percentile(self._floor_levels, 10))
         self.floor_used = self.noise_floor_db <= self.max_floor_db
         self._floor_levels = []
+        self._room_windows.append(self.noise_floor_db)
+        self._window_end_s = self._now_s
 
     def finish(self) -> None:
         """End of input: settle the floor even if the input was shorter than ``floor_s``."""
@@ -189,10 +222,15 @@ class HealthMeter:
                 self._voiced_db = v if math.isnan(self._voiced_db) else 0.98 * self._voiced_db + 0.02 * v
 
     @property
+    def room_floor_db(self) -> float:
+        return min(self._room_windows) if self._room_windows else math.nan
+
+    @property
     def snr_db(self) -> float:
-        if math.isnan(self._voiced_db) or math.isnan(self.noise_floor_db):
+        room = self.room_floor_db
+        if math.isnan(self._voiced_db) or math.isnan(room) or room > self.max_floor_db:
             return math.nan
-        return self._voiced_db - self.noise_floor_db
+        return self._voiced_db - room
 
     @property
     def clipping(self) -> bool:

@@ -253,6 +253,7 @@ class LivePipeline(Sink):
         return InputHealth(
             state=state, level_db=m.level_db, peak_db=m.peak_db, clipping=m.clipping,
             clipped_samples=m.clipped_samples, noise_floor_db=m.noise_floor_db, floor_used=m.floor_used,
+            room_floor_db=float(m.room_floor_db),
             snr_db=float(m.snr_db), overflows=m.overflows, dropped=self.results.dropped,
             dropped_blocks=self.dropped_blocks, backlog_s=backlog, lag_s=m.lag_s,
             latency_s=algorithmic + backlog + m.lag_s + self._last_wait_s, seconds=m.seconds,

@@ -51,7 +51,9 @@ def configure(parser: argparse.ArgumentParser) -> None:
 
 
 def _num(v: float, fmt: str = "4.0f") -> str:
-    return format(v, fmt) if v is not None and math.isfinite(v) else "-" * int(fmt.split(".")[0] or 1)
+    if v is None or not math.isfinite(v):
+        return "-" * int(fmt.split(".")[0] or 1)
+    return format(0.0 if float(format(v, fmt)) == 0 else v, fmt)      # no "-0"
 
 
 def status_line(t_s: float, frame, health) -> str:
@@ -66,7 +68,7 @@ def status_line(t_s: float, frame, health) -> str:
         f"F2 {_num(f('f2_hz'))}",
         f"F3 {_num(f('f3_hz'))} Hz",
         f"level {_num(health.level_db, '6.1f')} dBFS",
-        f"floor {_num(health.noise_floor_db, '4.0f')}",
+        f"floor {_num(health.room_floor_db, '4.0f')}",
         f"SNR {_num(health.snr_db, '3.0f')} dB",
     ]
     if health.clipping:
@@ -151,8 +153,9 @@ def run(args: argparse.Namespace) -> int:
     voiced = int(track.voiced.sum()) if len(track) else 0
     summary = (f"{'stopped' if interrupted else 'done'}: {len(track)} frames ({voiced} voiced) over {h.seconds:.1f} s "
                f"of input; overflows {h.overflows}, dropped results {h.dropped}, dropped blocks {h.dropped_blocks}; "
-               f"noise floor {_num(h.noise_floor_db, '.1f')} dBFS{'' if h.floor_used else ' (not used)'}, "
-               f"SNR {_num(h.snr_db, '.1f')} dB")
+               f"lead-in floor {_num(h.noise_floor_db, '.1f')} dBFS"
+               f"{'' if h.floor_used else ' (louder than a room: not used for voicing)'}, "
+               f"room floor {_num(h.room_floor_db, '.1f')} dBFS, SNR {_num(h.snr_db, '.1f')} dB")
     print(summary, file=sys.stderr)
     for opt, path in (("frames", args.frames), ("audio", args.record)):
         if path:
