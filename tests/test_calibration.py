@@ -125,3 +125,27 @@ def test_listen_gives_up_on_silence(tmp_path, capsys):
     cap = capsys.readouterr()
     assert rc == 2 and "no voice heard for 5 s" in cap.err and not prof.exists()
     assert "F1 " in cap.out                          # the first take was measured before it gave up
+
+
+def test_ctrl_c_during_calibration_says_what_became_of_the_takes(tmp_path, capsys, monkeypatch):
+    # stopped (Ctrl-C) after three good takes: nothing is saved, and the speaker is told so
+    import livevowel.session.calibration as cal
+
+    real = cal.run_calibration
+
+    def stop_after_three(*a, on_take=None, **kw):
+        n = []
+
+        def take(oc, t):
+            on_take(oc, t)
+            if t is not None:
+                n.append(t)
+                if len(n) == 3:
+                    raise KeyboardInterrupt
+        return real(*a, on_take=take, **kw)
+
+    monkeypatch.setattr(cal, "run_calibration", stop_after_three)
+    rc, out, err, data = calibrate(tmp_path, capsys, [("fleece", 0.5), ("fleece", 0.5), ("lot", 0.5), ("lot", 0.5),
+                                                      ("goose", 0.5), ("goose", 0.5)], "S35")
+    assert rc == 130 and data is None
+    assert "stopped after 3 of 6 takes" in err and "nothing was saved" in err and "not written" in err

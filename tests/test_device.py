@@ -260,3 +260,23 @@ def test_guided_calibration_from_the_microphone(tmp_path, capsys):
     data = yaml.safe_load(prof.read_text())
     assert [t["vowel"] for t in data["tokens"]] == ["fleece", "lot", "goose"]
     assert data["transform"]["factors"]["f1"] == pytest.approx(FACTOR, rel=0.04)
+
+
+def test_no_device_at_all_asks_after_the_sound_server():
+    # PortAudio seeing nothing at all usually means no sound server (or none reachable)
+    from types import SimpleNamespace as NS
+
+    from livevowel.audio.devices import no_input_message
+
+    class NoDevices:
+        PortAudioError = RuntimeError
+
+        @staticmethod
+        def query_devices():
+            return []
+
+    msg = no_input_message(NoDevices)
+    assert "sound server" in msg and "--source demo" in msg
+    speakers = NS(PortAudioError=RuntimeError,
+                  query_devices=lambda: [{"name": "HDMI", "max_input_channels": 0, "max_output_channels": 2}])
+    assert "sound server" not in no_input_message(speakers) and "HDMI" in no_input_message(speakers)

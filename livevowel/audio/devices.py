@@ -98,7 +98,9 @@ def no_input_message(sd=None) -> str:
     """The one-line message for a machine with no input device."""
     seen = all_device_names(sd)
     what = f"PortAudio sees only {', '.join(seen)}" if seen else "PortAudio sees no audio device at all"
-    return f"no input device found ({what}); {ALTERNATIVES}"
+    hint = "" if seen else ("is the sound server (PulseAudio or PipeWire) running, and the microphone plugged in? "
+                            "Otherwise ")
+    return f"no input device found ({what}); {hint}{ALTERNATIVES}"
 
 
 def describe_devices(devices: list[InputDevice]) -> str:

@@ -268,6 +268,8 @@ def _calibrate(args: argparse.Namespace) -> int:
 
 def _listen_tokens(args: argparse.Namespace, path) -> list:
     """``calibrate --listen``: prompt each vowel on the terminal, measure it from the input."""
+    import sys
+
     from livevowel import config
     from livevowel.audio.options import source_from_args
     from livevowel.cli import caution_if_live
@@ -304,7 +306,11 @@ def _listen_tokens(args: argparse.Namespace, path) -> list:
         print(f"say {label} as in \u201c{word}\u201d ({target.lexical_set or target.id}), take {take} of "
               f"{takes} ...", flush=True)
 
+    measured = []
+
     def took(oc, take) -> None:
+        if take is not None:
+            measured.append(take)
         if take is None:
             why = ", ".join(oc.attempt.flags) or oc.judgement.reason
             print(f"  not used ({why}); {'again, please' if oc.prompt is not None else 'then say it'}", flush=True)
@@ -316,10 +322,17 @@ def _listen_tokens(args: argparse.Namespace, path) -> list:
     wait = 30.0 if args.wait is None else args.wait
     if not wait > 0:
         raise UserError(f"--wait {args.wait:g}: give a number of seconds above 0")
-    got = run_calibration(ts, source, vowels=ids, takes=takes, wait_s=wait,
-                          analysis=AnalysisSettings.from_config(settings),
-                          live=live, attempt_settings=AttemptSettings.from_config(settings), on_prompt=prompt,
-                          on_take=took)
+    try:
+        got = run_calibration(ts, source, vowels=ids, takes=takes, wait_s=wait,
+                              analysis=AnalysisSettings.from_config(settings),
+                              live=live, attempt_settings=AttemptSettings.from_config(settings), on_prompt=prompt,
+                              on_take=took)
+    except KeyboardInterrupt:
+        # stopping is what the caution asks for when the voice hurts: say plainly what became of the takes
+        print(f"stopped after {len(measured)} of {takes * len(ids)} takes; a profile needs them all, so nothing "
+              f"was saved and {path} is {'unchanged' if path.exists() else 'not written'}. Run the same command "
+              "again when ready.", file=sys.stderr, flush=True)
+        raise
     short = [f"{v}: {n} of {takes}" for v in ids if (n := sum(t.vowel == v for t in got)) < takes]
     if short:
         raise UserError(f"the input ended before every take was made ({'; '.join(short)}); {path} is unchanged")
