@@ -257,6 +257,34 @@ def test_kill_mid_run_loses_nothing_committed(recorded, tmp_path):
     assert not list(data.rglob("*.part"))
 
 
+def test_sigterm_ends_the_session_like_ctrl_c(recorded, tmp_path, capsys):
+    # a service manager's or kill's SIGTERM: the session is closed and stamped (not "cut off"),
+    # and `sessions` lists it as an unfinished drill
+    data = tmp_path / "termed"
+    env = dict(os.environ, PYTHONUNBUFFERED="1")
+    proc = subprocess.Popen([sys.executable, "-m", "livevowel", "drill", str(recorded["drill"]), "--speaker", "S14",
+                             "--source", f"file:{recorded['long']}", "--pace", "1", "--data", str(data)],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    printed = []
+    try:
+        for line in proc.stdout:
+            printed.append(line)
+            if line.startswith("#"):
+                break
+        proc.send_signal(signal.SIGTERM)
+        out, _ = proc.communicate(timeout=60)
+    finally:
+        proc.kill()
+    assert proc.returncode == 130, "".join(printed) + out
+    assert "stopped" in out
+    s = Store.open(data)
+    assert s.session(1)["ended_utc"] is not None and len(s.attempts(1)) >= 1
+    capsys.readouterr()
+    assert main(["sessions", "--data", str(data)]) == 0
+    row = [ln for ln in capsys.readouterr().out.splitlines() if ln.strip().startswith("1 ")]
+    assert len(row) == 1 and row[0].rstrip().endswith("unfinished")
+
+
 def test_bad_drill_and_missing_target_via_cli(tmp_path, capsys, recorded):
     bad = tmp_path / "bad.yaml"
     d = yaml.safe_load(recorded["drill"].read_text())

@@ -112,6 +112,22 @@ def _prepare_engine() -> None:
         note.cancel()
 
 
+def _stop_on_terminate():
+    """SIGTERM (a service manager, ``kill``) stops a run the way Ctrl-C does: what is open is
+    closed and stamped, not cut off. Only from the main thread (where signals are handled);
+    returns the handler it replaced (None if it set none), for :func:`main` to put back."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread() or not hasattr(signal, "SIGTERM"):
+        return None
+
+    def stop(signum, frame):
+        raise KeyboardInterrupt
+
+    return signal.signal(signal.SIGTERM, stop)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``livevowel`` console script; returns the exit status."""
     parser = build_parser()
@@ -122,6 +138,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     if not getattr(args, "command", None):
         parser.print_help()
         return 2
+    previous = _stop_on_terminate()
     try:
         if args.command in ENGINE_COMMANDS:
             _prepare_engine()
@@ -137,3 +154,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 130
     except BrokenPipeError:  # e.g. `livevowel ... | head`
         return 0
+    finally:
+        if previous is not None:
+            import signal
+
+            signal.signal(signal.SIGTERM, previous)

@@ -90,7 +90,9 @@ def run(args: argparse.Namespace) -> int:
               f"{'hits':>5} {'acc':>5}  end")
         for r in rows:
             what = r["drill"] or f"({r['target_set'] or 'free'})"
-            end = "ok" if r["ended_utc"] else "cut off"
+            end = ("cut off" if not r["ended_utc"]          # the process ended without closing it
+                   else "unfinished" if r["drill"] and not r["drill_finished"]   # stopped, or the input ended
+                   else "ok")
             print(f"{r['id']:>4}  {_when(r['started_utc']):<16}  {(r['speaker_id'] or '-'):<10} {what:<32} "
                   f"{r['attempts']:>4} {r['trials']:>6} {r['hits']:>5} {_pct(r['hits'], r['trials']):>5}  {end}")
     finally:

@@ -441,12 +441,15 @@ class Store:
 
     # -- reading -----------------------------------------------------------------
     def sessions(self, *, speaker_id: str | None = None) -> list[dict]:
-        """Sessions with counts: list of dicts (session columns + trials, hits, attempts)."""
+        """Sessions with counts: list of dicts (session columns + trials, hits, attempts, and
+        drill_finished: 1 where the drill ran to its end)."""
         q = (f"SELECT s.*, (SELECT count(*) FROM attempts a WHERE a.session_id = s.id) AS attempts, "
              f"(SELECT count(*) FROM attempts a WHERE a.session_id = s.id AND a.trial IS NOT NULL "
              f"AND a.counted = 1 AND {RESULT_SQL} IS NOT NULL) AS trials, "
              f"(SELECT count(*) FROM attempts a WHERE a.session_id = s.id AND a.trial IS NOT NULL "
-             f"AND a.counted = 1 AND {RESULT_SQL} = 1) AS hits FROM sessions s")
+             f"AND a.counted = 1 AND {RESULT_SQL} = 1) AS hits, "
+             f"EXISTS (SELECT 1 FROM events e WHERE e.session_id = s.id AND e.kind = 'drill_end') AS drill_finished "
+             f"FROM sessions s")
         args: tuple = ()
         if speaker_id is not None:
             q += " WHERE s.speaker_id = ?"
