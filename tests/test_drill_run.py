@@ -230,12 +230,17 @@ def test_coach_override_is_stored_beside_the_automatic_result(recorded, tmp_path
     assert sess.run.block_states[0].results[2].hit is True
 
 
+def _drill_process(recorded, speaker, data, *, pace):
+    """`livevowel drill` on the long recording in a child process (unbuffered text pipes)."""
+    env = dict(os.environ, PYTHONUNBUFFERED="1")
+    return subprocess.Popen([sys.executable, "-m", "livevowel", "drill", str(recorded["drill"]), "--speaker", speaker,
+                             "--source", f"file:{recorded['long']}", "--pace", str(pace), "--data", str(data)],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+
+
 def test_kill_mid_run_loses_nothing_committed(recorded, tmp_path):
     data = tmp_path / "killed"
-    env = dict(os.environ, PYTHONUNBUFFERED="1")
-    proc = subprocess.Popen([sys.executable, "-m", "livevowel", "drill", str(recorded["drill"]), "--speaker", "S13",
-                             "--source", f"file:{recorded['long']}", "--pace", "0", "--data", str(data)],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    proc = _drill_process(recorded, "S13", data, pace=0)
     printed = []
     try:
         for line in proc.stdout:
@@ -261,10 +266,7 @@ def test_sigterm_ends_the_session_like_ctrl_c(recorded, tmp_path, capsys):
     # a service manager's or kill's SIGTERM: the session is closed and stamped (not "cut off"),
     # and `sessions` lists it as an unfinished drill
     data = tmp_path / "termed"
-    env = dict(os.environ, PYTHONUNBUFFERED="1")
-    proc = subprocess.Popen([sys.executable, "-m", "livevowel", "drill", str(recorded["drill"]), "--speaker", "S14",
-                             "--source", f"file:{recorded['long']}", "--pace", "1", "--data", str(data)],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    proc = _drill_process(recorded, "S14", data, pace=1)
     printed = []
     try:
         for line in proc.stdout:

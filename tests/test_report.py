@@ -392,9 +392,8 @@ def test_adaptive_changes_are_listed_in_order():
     assert _adapt_table(SimpleNamespace(events=ev[:1])) == ""        # no changes: no section
 
 
-def test_speaker_plane_draws_each_attempt_only_against_its_own_set(record, tmp_path, monkeypatch):
-    from livevowel.report import build as build_mod
-
+def _with_a_later_session_on_the_womens_set(record, tmp_path):
+    """A copy of the record with one more session of S31, judged against gae-women: (folder, its id)."""
     data = tmp_path / "data"
     shutil.copytree(record["data"], data)
     rec = SessionRecorder(folder=data, clips=False)          # a later session on the women's set
@@ -405,6 +404,13 @@ def test_speaker_plane_draws_each_attempt_only_against_its_own_set(record, tmp_p
                  "auto_hit": 0, "counted": 1, "f1_hz": 400.0, "f2_hz": 2500.0, "level_db": -20.0})
     rec.finish()
     rec.close()
+    return data, sid
+
+
+def test_speaker_plane_draws_each_attempt_only_against_its_own_set(record, tmp_path, monkeypatch):
+    from livevowel.report import build as build_mod
+
+    data, sid = _with_a_later_session_on_the_womens_set(record, tmp_path)
     drawn = []
     real = build_mod.plane_figure
     monkeypatch.setattr(build_mod, "plane_figure", lambda rows, ts, **kw: drawn.append((len(rows), ts.id)) or
@@ -421,16 +427,7 @@ def test_speaker_trend_keeps_one_target_of_two_sets_apart(record, tmp_path, monk
     # two lines and two table columns, each with only its own sessions, not one line across both
     from livevowel.report import build as build_mod
 
-    data = tmp_path / "data"
-    shutil.copytree(record["data"], data)
-    rec = SessionRecorder(folder=data, clips=False)
-    sid = rec.start(speaker_id="S31", voice_group="adult_male", target_set="gae-women", drill="front-pairs",
-                    mode="self_paced", source="file:/home/clinic/S31/late.wav", started_utc="2026-02-01T10:00:00Z")
-    rec.attempt({"number": 1, "start_s": 1.0, "end_s": 1.4, "duration_s": 0.4, "block_index": 0, "block_id": "b",
-                 "trial": 1, "prompt": "fleece", "target_id": "fleece", "hit_size_sd": 2.0, "hold_s": 0.15,
-                 "auto_hit": 0, "counted": 1, "f1_hz": 400.0, "f2_hz": 2500.0, "level_db": -20.0})
-    rec.finish()
-    rec.close()
+    data, sid = _with_a_later_session_on_the_womens_set(record, tmp_path)
     seen = {}
     real = build_mod.trend_figure
     monkeypatch.setattr(build_mod, "trend_figure", lambda series, **kw: seen.update(series=series, **kw) or
