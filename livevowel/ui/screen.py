@@ -585,13 +585,17 @@ class PracticeScreen:
         f0 = last.f0_hz if (last is not None and not self.paused and now_s - self._last_arrival <= 0.5) else None
         parts = [f"F0 {num(f0)}", f"F1 {num(fr.f1_hz if fr else None)}", f"F2 {num(fr.f2_hz if fr else None)}",
                  f"F3 {num(fr.f3_hz if fr else None)} Hz"]
+        widest_parts = ["F0 000", "F1 0000", "F2 0000", "F3 0000 Hz"]   # F0 under 1000 Hz
         state = "paused" if self.paused else (getattr(h, "state", None) or "starting")
         lat = getattr(h, "latency_s", None)
         show_lat = self.show_latency and lat is not None and math.isfinite(lat)
         gap = 10 * u
 
-        def plan(level_of_cut: int):
-            """Surfaces for the left and right items at this level of cutting."""
+        def plan(level_of_cut: int, *, widest: bool = False):
+            """Surfaces for the left and right items at this level of cutting; ``widest``: with
+            the widest numbers they can show, so that the choice does not flicker as they change
+            (and renders only texts the font book has cached)."""
+            nums = widest_parts if widest else parts
             # (kind, surface, space before it)
             left = []
             if level_of_cut < 3:
@@ -602,15 +606,17 @@ class PracticeScreen:
             if have_snr and level_of_cut < 7:
                 col = th.text if snr >= 10 else th.warn
                 word = "" if snr >= 20 or level_of_cut >= 4 else (" (some noise)" if snr >= 10 else " (noisy)")
-                left.append(("snr", F.text(f"SNR {int(round(snr))} dB{word}", size, col), gap + 12 * u))
+                value = "-00" if widest else str(int(round(snr)))
+                left.append(("snr", F.text(f"SNR {value} dB{word}", size, col), gap + 12 * u))
             tight = level_of_cut >= 5
-            left.append(("nums", F.text((" " if tight else "   ").join(parts), size, th.text),
+            left.append(("nums", F.text((" " if tight else "   ").join(nums), size, th.text),
                          gap + (2 if tight else 16) * u))
             right = [("help", F.text("H  help" if level_of_cut < 2 else "H", small, th.muted_text), 0)]
             right.append(("state", F.text(state, size, th.warn if state in ("input lost", "stopped") else th.text,
                                           bold=True), 22 * u))
             if show_lat and level_of_cut < 1:
-                right.append(("lat", F.text(f"latency {lat * 1000:.0f} ms", size, th.text), 22 * u))
+                ms = "000" if widest else f"{lat * 1000:.0f}"
+                right.append(("lat", F.text(f"latency {ms} ms", size, th.text), 22 * u))
             return left, right
 
         def width(items):
@@ -618,9 +624,10 @@ class PracticeScreen:
 
         room = lay.width - 40 * u - 16 * u
         for cut in range(8):
-            left, right = plan(cut)
+            left, right = plan(cut, widest=True)
             if width(left) + width(right) <= room:
                 break
+        left, right = plan(cut)
         x = 20 * u
         for k, surf, pre in left:
             x += pre
