@@ -325,3 +325,23 @@ def test_the_status_strip_items_never_overlap(fonts, tset, size, large, tmp_path
                          message="", backlog_s=0.0))
         s2.draw(surf, now_s=0.0)
         assert s2.strip_extent[0] < s2.strip_extent[1]
+
+
+def test_region_labels_of_crowded_regions_do_not_overlap(fonts, tset, tmp_path):
+    # regions a speaker's profile has moved close together: GOOSE's centre 25 Hz from FOOT's;
+    # their labels (symbol and word) are moved apart rather than drawn over each other
+    s = make(tset, fonts)
+    f1, f2 = s._centres["foot"]
+    s._centres["goose"] = (f1 + 25.0, f2 - 25.0)
+    surf = pygame.Surface((1280, 800))
+    s.draw(surf, now_s=0.0)
+    rects = s.label_rects
+    assert len(rects) >= 2 * len(tset.targets) - 1
+    crossing = [(a, b) for i, a in enumerate(rects) for b in rects[i + 1:] if a.colliderect(b)]
+    assert not crossing, crossing
+    pygame.image.save(surf, str(tmp_path / "crowded.png"))
+    # uncrowded, every label stays where it was: symbol bottom on its region's centre
+    s2 = make(tset, fonts)
+    s2.draw(surf, now_s=0.0)
+    cx, cy = s2._plane.to_pixel(*s2._centres["lot"])
+    assert any(r.midbottom == (int(round(cx)), int(round(cy))) for r in s2.label_rects)

@@ -126,6 +126,23 @@ def compute_layout(width: int, height: int, *, text_scale: float = 1.0) -> Layou
                   pygame.Rect(0, height - strip_h, width, strip_h))
 
 
+def _free_label_spot(sym, word, cx: float, cy: float, placed: list, bounds) -> tuple:
+    """Rects for a region's symbol (bottom at ``cy``) and word (under it), centred on ``cx``:
+    the first of the centre, then up and down by half and whole label heights, that meets no
+    rect in ``placed`` and stays within ``bounds``; the centre if none does."""
+    h = sym.get_height() + (word.get_height() if word is not None else 0)
+    first = None
+    for dy in (0.0, -0.5 * h, 0.5 * h, -h, h):
+        r = sym.get_rect(midbottom=(int(round(cx)), int(round(cy + dy))))
+        wr = word.get_rect(midtop=(r.centerx, r.bottom)) if word is not None else None
+        both = r.union(wr) if wr is not None else r
+        if first is None:
+            first = (r, wr)
+        if bounds.contains(both) and both.collidelist(placed) < 0:
+            return r, wr
+    return first
+
+
 class PracticeScreen:
     """Vowel plane, targets, dot and counters, fed by a frame stream.
 
@@ -430,7 +447,12 @@ class PracticeScreen:
         pts = plane.outline_to_pixels(self.outline_of(cur))
         D.translucent_polygon(s, pts, th.current, th.current_fill_alpha)
         D.outline(s, pts, th.current, max(2, int(round(4 * th.line_scale * u))))
-        for t in self.targets:
+        # labels: the current target's first, then the others at their centres, each moved up or down
+        # (by up to two label heights) off any label already placed, so that labels of regions that
+        # crowd together (a speaker's profile can move them) stay readable
+        placed: list = []
+        order = [cur] + [t for t in self.targets if t.id != cur.id]
+        for t in order:
             cx, cy = plane.to_pixel(*self._centres[t.id])
             is_cur = t.id == cur.id
             col = th.current if is_cur else th.text
@@ -443,12 +465,18 @@ class PracticeScreen:
                     r = D.blit_text(s, sym, cx, top - 2 * u, "midbottom")
                 else:  # no room above: below (drawn once)
                     r = D.blit_text(s, sym, cx, max(p[1] for p in pts) + 2 * u, "midtop")
+                placed.append(r)
                 if word is not None:
-                    D.blit_text(s, word, r.right + 6 * u, r.centery + 4 * u, "midleft")
+                    placed.append(D.blit_text(s, word, r.right + 6 * u, r.centery + 4 * u, "midleft"))
                 continue
-            r = D.blit_text(s, sym, cx, cy, "midbottom")
+            r, wr = _free_label_spot(sym, word, cx, cy, placed, pr)
+            s.blit(sym, r)
+            placed.append(r)
             if word is not None:
-                D.blit_text(s, word, cx, r.bottom, "midtop")
+                s.blit(word, wr)
+                placed.append(wr)
+        #: where the region labels went (symbols and words, px), current target's first
+        self.label_rects = placed
         # header, static part: the current target
         hx = int(26 * u)
         D.blit_text(s, F.text("target", int(17 * u), th.muted_text), hx, lay.header.centery - 22 * u, "midleft")
