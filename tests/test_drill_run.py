@@ -187,9 +187,8 @@ def test_each_attempt_and_the_summary_are_printed(recorded):
     assert "1:fk" in out and "3/4" in out and "fleece" in out and "session 1 finished" in out
 
 
-def test_each_prompt_is_printed_before_the_attempt_that_answers_it(recorded):
-    # a learner at a terminal must read what to say before saying it, not after the result
-    lines = [ln for ln in recorded["out"].splitlines() if ln.startswith(("say ", "#"))]
+def _prompts_come_before_their_answers(out: str) -> None:
+    lines = [ln for ln in out.splitlines() if ln.startswith(("say ", "#"))]
     said = [ln for ln in lines if ln.startswith("say ")]
     judged = [ln for ln in lines if ln.startswith("#") and ("HIT" in ln or "miss" in ln)]
     assert len(said) >= len(judged) == 6
@@ -198,8 +197,26 @@ def test_each_prompt_is_printed_before_the_attempt_that_answers_it(recorded):
             ask = next(a for a in reversed(lines[:i]) if a.startswith("say "))
             prompt = ask.split("'")[1]
             assert f"'{prompt}'->" in ln, (ask, ln)
+            # and no later prompt came between the one answered and its result
+            assert lines.index(ask) == max(j for j, a in enumerate(lines[:i]) if a.startswith("say ")), lines
     assert all(", trial " in a and "(block " in a for a in said)
     assert len(set(said)) == len(said)                     # each prompt once
+
+
+def test_each_prompt_is_printed_before_the_attempt_that_answers_it(recorded):
+    # a learner at a terminal must read what to say before saying it, not after the result
+    _prompts_come_before_their_answers(recorded["out"])
+
+
+def test_with_no_pause_the_next_prompt_still_follows_the_last_result(recorded):
+    # with --pause 0 the next prompt is put at once, while the last result still waits for its
+    # clip's tail: the prompt is held back until that result is printed
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        rc = main(["drill", str(recorded["drill"]), "--speaker", "S16", "--source", f"file:{recorded['wav']}",
+                   "--pace", "0", "--pause", "0", "--no-save", "--seed", "5"])
+    assert rc == 0
+    _prompts_come_before_their_answers(out.getvalue())
 
 
 def test_coach_override_is_stored_beside_the_automatic_result(recorded, tmp_path):

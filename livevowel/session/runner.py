@@ -310,6 +310,7 @@ class DrillSession:
             if self.on_outcome is not None:
                 self.on_outcome(oc)
         self._pending = keep
+        self._announce()            # a prompt held back for these results
 
     def _write_events(self) -> None:
         for ev in self.run.pop_events():
@@ -318,9 +319,10 @@ class DrillSession:
         self._announce()
 
     def _announce(self) -> None:
-        """Call ``on_prompt`` once for each prompt put to the speaker."""
+        """Call ``on_prompt`` once for each prompt put to the speaker, after the results of the
+        attempts before it (a result waits for its clip's tail; the next prompt waits for it)."""
         p = getattr(self.run, "prompt", None)
-        if p is not None and p is not self._announced and self.on_prompt is not None:
+        if p is not None and p is not self._announced and self.on_prompt is not None and not self._pending:
             self._announced = p
             self.on_prompt(p)
 
