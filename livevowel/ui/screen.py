@@ -126,20 +126,28 @@ def compute_layout(width: int, height: int, *, text_scale: float = 1.0) -> Layou
                   pygame.Rect(0, height - strip_h, width, strip_h))
 
 
+def _ink(text_surface, rect):
+    """The part of ``rect`` (where ``text_surface`` is blitted) that holds ink: a font's line
+    box has room above and below its glyphs that must not count as a collision."""
+    return text_surface.get_bounding_rect().move(rect.topleft)
+
+
 def _free_label_spot(sym, word, cx: float, cy: float, placed: list, bounds) -> tuple:
-    """Rects for a region's symbol (bottom at ``cy``) and word (under it), centred on ``cx``:
-    the first of the centre, then up and down by half and whole label heights, that meets no
-    rect in ``placed`` and stays within ``bounds``; the centre if none does."""
+    """Where a region's symbol (bottom at ``cy``) and word (under it) go, centred on ``cx``: the
+    first of the centre, then up and down by half and whole label heights, whose ink meets no
+    ink in ``placed`` and stays within ``bounds``; the centre if none does.
+
+    Returns ``(symbol rect, word rect or None, vertical move in px, [ink rects])``."""
     h = sym.get_height() + (word.get_height() if word is not None else 0)
     first = None
     for dy in (0.0, -0.5 * h, 0.5 * h, -h, h):
         r = sym.get_rect(midbottom=(int(round(cx)), int(round(cy + dy))))
         wr = word.get_rect(midtop=(r.centerx, r.bottom)) if word is not None else None
-        both = r.union(wr) if wr is not None else r
+        ink = [_ink(sym, r)] + ([_ink(word, wr)] if wr is not None else [])
         if first is None:
-            first = (r, wr)
-        if bounds.contains(both) and both.collidelist(placed) < 0:
-            return r, wr
+            first = (r, wr, 0.0, ink)
+        if all(bounds.contains(i) and i.collidelist(placed) < 0 for i in ink):
+            return r, wr, dy, ink
     return first
 
 
@@ -183,6 +191,7 @@ class PracticeScreen:
         self.message = ""
         self._outlines = {t.id: np.asarray(t.outline_hz(64), dtype=float) for t in self.targets}
         self._centres = {t.id: (float(t.f1_hz), float(t.f2_hz)) for t in self.targets}
+        self._strip_cut: tuple | None = None     # (what decided it, cut level) of the status strip
         self._sized_outlines: dict[tuple[str, float], np.ndarray] = {}
         self._by_id = {t.id: t for t in self.targets}
         self._trail: deque = deque()   # (time_s, f1_hz, f2_hz, stroke number)
@@ -448,9 +457,10 @@ class PracticeScreen:
         D.translucent_polygon(s, pts, th.current, th.current_fill_alpha)
         D.outline(s, pts, th.current, max(2, int(round(4 * th.line_scale * u))))
         # labels: the current target's first, then the others at their centres, each moved up or down
-        # (by up to two label heights) off any label already placed, so that labels of regions that
+        # (by up to one label height) off any label already placed, so that labels of regions that
         # crowd together (a speaker's profile can move them) stay readable
         placed: list = []
+        moves: dict = {}
         order = [cur] + [t for t in self.targets if t.id != cur.id]
         for t in order:
             cx, cy = plane.to_pixel(*self._centres[t.id])
@@ -465,18 +475,19 @@ class PracticeScreen:
                     r = D.blit_text(s, sym, cx, top - 2 * u, "midbottom")
                 else:  # no room above: below (drawn once)
                     r = D.blit_text(s, sym, cx, max(p[1] for p in pts) + 2 * u, "midtop")
-                placed.append(r)
+                placed.append(_ink(sym, r))
                 if word is not None:
-                    placed.append(D.blit_text(s, word, r.right + 6 * u, r.centery + 4 * u, "midleft"))
+                    placed.append(_ink(word, D.blit_text(s, word, r.right + 6 * u, r.centery + 4 * u, "midleft")))
                 continue
-            r, wr = _free_label_spot(sym, word, cx, cy, placed, pr)
+            r, wr, dy, ink = _free_label_spot(sym, word, cx, cy, placed, pr)
             s.blit(sym, r)
-            placed.append(r)
             if word is not None:
                 s.blit(word, wr)
-                placed.append(wr)
-        #: where the region labels went (symbols and words, px), current target's first
-        self.label_rects = placed
+            placed += ink
+            moves[t.id] = dy
+        #: the region labels' ink (symbols and words, px), the current target's first, and how far
+        #: each other label was moved off the others (px, 0 = on its region's centre)
+        self.label_rects, self.label_moves = placed, moves
         # header, static part: the current target
         hx = int(26 * u)
         D.blit_text(s, F.text("target", int(17 * u), th.muted_text), hx, lay.header.centery - 22 * u, "midleft")
@@ -593,7 +604,9 @@ class PracticeScreen:
         """The status strip: input meter, SNR and F0-F3 from the left; state, latency and the
         help hint from the right. Items that do not fit (large text, a narrow window) are left
         out, least needed first: latency, the help hint's word (its H stays), the meter's label,
-        the SNR's word; then the numbers close up, the meter narrows and the SNR goes."""
+        the SNR's word; then the numbers close up, the meter narrows, the SNR goes, then F3 and
+        the unit, then "TOO LOUD" gives way to the meter's own warning colour. The choice is made
+        on the widest numbers the strip can show and kept while what decides it is unchanged."""
         th, F, lay, u = self.theme, self.fonts, self._layout, self._layout.u
         st = lay.strip
         size = int(19 * u)
@@ -614,6 +627,7 @@ class PracticeScreen:
         parts = [f"F0 {num(f0)}", f"F1 {num(fr.f1_hz if fr else None)}", f"F2 {num(fr.f2_hz if fr else None)}",
                  f"F3 {num(fr.f3_hz if fr else None)} Hz"]
         widest_parts = ["F0 000", "F1 0000", "F2 0000", "F3 0000 Hz"]   # F0 under 1000 Hz
+        n_cuts = 10
         state = "paused" if self.paused else (getattr(h, "state", None) or "starting")
         lat = getattr(h, "latency_s", None)
         show_lat = self.show_latency and lat is not None and math.isfinite(lat)
@@ -624,17 +638,19 @@ class PracticeScreen:
             the widest numbers they can show, so that the choice does not flicker as they change
             (and renders only texts the font book has cached)."""
             nums = widest_parts if widest else parts
+            if level_of_cut >= 8:                     # F3 and the unit go last but one
+                nums = nums[:3]
             # (kind, surface, space before it)
             left = []
             if level_of_cut < 3:
                 left.append(("label", F.text("input", small, th.muted_text), 0))
             left.append(("meter", int((130 if level_of_cut < 6 else 60) * u), 8 * u if left else 0))
-            if clip:
+            if clip and level_of_cut < 9:
                 left.append(("loud", F.text("TOO LOUD", size, th.warn, bold=True), gap))
             if have_snr and level_of_cut < 7:
                 col = th.text if snr >= 10 else th.warn
                 word = "" if snr >= 20 or level_of_cut >= 4 else (" (some noise)" if snr >= 10 else " (noisy)")
-                value = "-00" if widest else str(int(round(snr)))
+                value = "000" if widest else str(int(round(snr)))      # -99..999 dB
                 left.append(("snr", F.text(f"SNR {value} dB{word}", size, col), gap + 12 * u))
             tight = level_of_cut >= 5
             left.append(("nums", F.text((" " if tight else "   ").join(nums), size, th.text),
@@ -643,19 +659,23 @@ class PracticeScreen:
             right.append(("state", F.text(state, size, th.warn if state in ("input lost", "stopped") else th.text,
                                           bold=True), 22 * u))
             if show_lat and level_of_cut < 1:
-                ms = "000" if widest else f"{lat * 1000:.0f}"
+                ms = "0000" if widest else f"{lat * 1000:.0f}"
                 right.append(("lat", F.text(f"latency {ms} ms", size, th.text), 22 * u))
             return left, right
 
         def width(items):
             return sum((surf if k == "meter" else surf.get_width()) + pre for k, surf, pre in items)
 
-        room = lay.width - 40 * u - 16 * u
-        for cut in range(8):
-            left, right = plan(cut, widest=True)
-            if width(left) + width(right) <= room:
-                break
-        left, right = plan(cut)
+        key = (lay.width, u, self.theme_name, self.large_text, clip, have_snr,
+               None if not have_snr else (snr >= 20, snr >= 10), show_lat, state)
+        if self._strip_cut is None or self._strip_cut[0] != key:
+            room = lay.width - 40 * u - 16 * u
+            for cut in range(n_cuts):
+                left, right = plan(cut, widest=True)
+                if width(left) + width(right) <= room:
+                    break
+            self._strip_cut = (key, cut)
+        left, right = plan(self._strip_cut[1])
         x = 20 * u
         for k, surf, pre in left:
             x += pre
