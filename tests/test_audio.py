@@ -246,6 +246,24 @@ def test_a_session_that_starts_mid_speech_finds_the_room_at_the_first_pause():
     assert not any(math.isfinite(snr) and snr < 10 for _, snr in seen)   # never a false "noisy"
 
 
+def test_a_second_of_digital_silence_is_not_taken_for_the_room():
+    # start-up buffers or a system noise gate give exact zeros: the room is still the -60 dBFS
+    # noise around them (an SNR of ~100 dB "clean" would be wrong); a source with no noise at
+    # all (every stretch digital silence) keeps its -120 dBFS
+    rng = np.random.default_rng(4)
+    m = HealthMeter(floor_s=1.0, max_floor_db=-35.0)
+    blocks = [rng.normal(0.0, 0.001, 160).astype(np.float32) for _ in range(150)]
+    blocks += [np.zeros(160, np.float32)] * 120 + [rng.normal(0.0, 0.001, 160).astype(np.float32)] * 50
+    for k, b in enumerate(blocks):
+        m.add_block(b, time_s=k * 0.01, rate_hz=RATE, received_s=k * 0.01, segment=0, overflow=False)
+    assert m.room_floor_db == pytest.approx(-60.0, abs=1.0)
+    quiet = HealthMeter(floor_s=1.0)
+    for k in range(300):
+        quiet.add_block(np.zeros(160, np.float32), time_s=k * 0.01, rate_hz=RATE, received_s=k * 0.01, segment=0,
+                        overflow=False)
+    assert quiet.room_floor_db == -120.0
+
+
 # --------------------------------------------------------------- pipeline
 def test_stream_through_paced_source_equals_offline_causal_analysis(tmp_path):
     y = _vowel_file(tmp_path / "a.wav", PB_A, seconds=1.0, rate=44100)

@@ -111,5 +111,5 @@ def test_every_live_command_asks_for_the_caution(argv, monkeypatch, tmp_path, ca
     asked = []
     monkeypatch.setattr(cli, "caution_if_live", lambda args: asked.append(args.source) or False)
     argv = [a.replace("{tmp}", str(tmp_path)) for a in argv]
-    assert main(argv + ["--source", "demo", "--pace", "0"]) in (0, 130)
+    assert main(argv + ["--source", "demo", "--pace", "0"]) == 0
     assert asked == ["demo"]

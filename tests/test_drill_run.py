@@ -294,7 +294,7 @@ def test_sigterm_ends_the_session_like_ctrl_c(recorded, tmp_path, capsys):
         out, _ = proc.communicate(timeout=60)
     finally:
         proc.kill()
-    assert proc.returncode == 130, "".join(printed) + out
+    assert proc.returncode == 128 + signal.SIGTERM, "".join(printed) + out      # 143: stopped by SIGTERM
     assert "stopped" in out
     s = Store.open(data)
     assert s.session(1)["ended_utc"] is not None and len(s.attempts(1)) >= 1

@@ -30,6 +30,8 @@ STATES = ("starting", "listening", "input lost", "paused", "stopped")
 
 _TINY = 1e-12
 
+#: A stretch whose floor is below this (dBFS) holds digital silence, not a room.
+DIGITAL_SILENCE_DB = -100.0
 #: Length of the stretches the room's floor is measured over after the lead-in, seconds ...
 ROOM_WINDOW_S = 1.0
 #: ... and how many of the latest are kept (the floor is their quietest: it follows a room
@@ -61,7 +63,9 @@ class InputHealth:
     room_floor_db : float
         The room's floor as the input goes on: the quietest of the last
         ``ROOM_WINDOWS`` one-second stretches (10th percentile of their block
-        levels), the lead-in included, dBFS; ``nan`` until measured.
+        levels), the lead-in included, dBFS, leaving out stretches of digital
+        silence (below ``DIGITAL_SILENCE_DB``) unless all are; ``nan`` until
+        measured.
     snr_db : float
         Voiced-frame level minus ``room_floor_db``, dB; ``nan`` until both are
         known, and while that floor still looks like a voice (louder than
@@ -223,7 +227,10 @@ class HealthMeter:
 
     @property
     def room_floor_db(self) -> float:
-        return min(self._room_windows) if self._room_windows else math.nan
+        # a stretch of digital silence (start-up buffers, a system noise gate) is no room: it counts
+        # only where every stretch kept is that quiet (a source with no noise at all)
+        rooms = [w for w in self._room_windows if w > DIGITAL_SILENCE_DB]
+        return min(rooms) if rooms else (min(self._room_windows) if self._room_windows else math.nan)
 
     @property
     def snr_db(self) -> float:

@@ -123,9 +123,14 @@ def _stop_on_terminate():
         return None
 
     def stop(signum, frame):
+        _terminated.append(signum)
         raise KeyboardInterrupt
 
     return signal.signal(signal.SIGTERM, stop)
+
+
+#: Signals that stopped this process's run (main's exit status is then 128 + the signal, not 130).
+_terminated: list = []
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -139,10 +144,13 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     previous = _stop_on_terminate()
+    _terminated.clear()
     try:
         if args.command in ENGINE_COMMANDS:
             _prepare_engine()
-        return int(args._run(args) or 0)
+        rc = int(args._run(args) or 0)
+        # a run stopped by SIGTERM ends as Ctrl-C's does, but says so in its status (143)
+        return 128 + _terminated[0] if _terminated and rc == 130 else rc
     except UserError as exc:
         print(f"livevowel {args.command}: error: {exc}", file=sys.stderr)
         return exc.exit_code
@@ -151,7 +159,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         shot = getattr(getattr(exc, "result", None), "screenshot", None)   # a stopped screen's last picture
         if shot is not None:
             print(f"screenshot: {shot}")
-        return 130
+        return 128 + _terminated[0] if _terminated else 130
     except BrokenPipeError:  # e.g. `livevowel ... | head`
         return 0
     finally:

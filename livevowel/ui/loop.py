@@ -118,6 +118,7 @@ class Stopped(KeyboardInterrupt):
 
 #: SDL video drivers that draw into memory only (no window anyone can see or type into).
 INVISIBLE_DRIVERS = ("dummy", "offscreen")
+_noted_invisible: list = []     # non-empty once the note on such a driver has been printed
 
 
 def screen_available() -> bool:
@@ -143,8 +144,10 @@ def init_display(*, headless: bool) -> None:
     elif not screen_available():
         raise UserError("no screen to open a window on (DISPLAY is not set); run from a desktop "
                         "session, or add --headless --screenshot FILE.png")
-    elif os.environ.get("SDL_VIDEODRIVER", "").lower() in INVISIBLE_DRIVERS:
+    elif os.environ.get("SDL_VIDEODRIVER", "").lower() in INVISIBLE_DRIVERS and not _noted_invisible:
         import sys
+
+        _noted_invisible.append(True)       # once per process: the display is started more than once
 
         # the window exists but nobody can see it or press its keys: the caution, Space and Esc
         # wait for ever unless the run has its own end
