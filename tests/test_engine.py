@@ -411,3 +411,49 @@ def test_threads_share_the_work_without_changing_a_bit(voice):
             parts = analyze(x, 16000, settings=AnalysisSettings(voice=voice, threads=n)).frames
             for name in ("voiced", "f0_hz", "f1_hz", "f2_hz", "f3_hz", "b1_hz", "level_db", "confidence"):
                 np.testing.assert_array_equal(getattr(parts, name), getattr(one, name), err_msg=name)
+
+
+def test_a_vowel_ending_in_resonance_ringing_reports_no_f0_jump():
+    # when the source stops, the tract rings at F1 for a few ms and YIN reads F1 as F0 (known
+    # answer: the synthesiser's F1 of 500 Hz after an F0 of 108-315 Hz); those frames are not voice
+    from livevowel.dsp.synth import Schedule, Segment, render
+
+    segs = [Segment(duration_s=0.5, kind="silent")]
+    for f0 in (120.0, 200.0, 350.0):
+        segs += [Segment(duration_s=0.6, kind="voiced", f0_start_hz=f0, f0_end_hz=f0 * 0.9,
+                         formants_hz=(500.0, 1500.0, 2500.0)), Segment(duration_s=0.5, kind="silent")]
+    x, _ = render(Schedule(tuple(segs), voice="woman"), rate_hz=16000, seed=1, peak_dbfs=-12.0)
+    for causal in (False, True):
+        fr = analyze(x, 16000, causal=causal).frames
+        f0 = fr.f0_hz
+        for on, f0_end in ((0.5, 108.0), (1.6, 180.0), (2.7, 315.0)):
+            mid = (fr.time_s > on + 0.1) & (fr.time_s < on + 0.5)
+            assert fr.voiced[mid].all()                  # each vowel voiced through its middle
+            # its last 50 ms and the 60 ms after it: any voiced frame has the vowel's own F0
+            # (within 15 %), none the ringing's 500 Hz
+            end = (fr.time_s > on + 0.55) & (fr.time_s < on + 0.66) & fr.voiced & np.isfinite(f0)
+            assert end.any() and np.all(np.abs(f0[end] / f0_end - 1.0) < 0.15), (causal, on, f0[end])
+
+
+def test_the_ringing_rule_frame_by_frame():
+    from livevowel.dsp.engine import RING_WITHIN, _drop_ringing, _ringing_step
+
+    st = None
+    v, st = _ringing_step(st, 0, True, 120.0, -20.0)
+    assert v
+    v, st = _ringing_step(st, 1, True, 400.0, -26.0)         # x3.3 and 6 dB down: ringing
+    assert not v
+    v, st = _ringing_step(st, 2, True, float("nan"), -35.0)   # still quiet: rings on
+    assert not v
+    v, st = _ringing_step(st, 3, True, 125.0, -19.0)          # the voice back at its pitch
+    assert v
+    v, st = _ringing_step(st, 4, True, 250.0, -19.5)          # an octave up but not quieter: voice
+    assert v
+    v, st = _ringing_step(None, 10, True, 400.0, -40.0)       # nothing to compare with: voice
+    assert v
+    v, st = _ringing_step(("voice", 0, 120.0, -20.0), 1 + RING_WITHIN, True, 400.0, -30.0)   # too long ago
+    assert v
+    voiced = np.array([True, True, True, False, True, True])
+    f0 = np.array([110.0, 108.0, 420.0, np.nan, 109.0, 108.0])
+    lv = np.array([-20.0, -21.0, -30.0, -60.0, -20.0, -20.0])
+    assert _drop_ringing(voiced, f0, lv).tolist() == [True, True, False, False, True, True]
