@@ -63,6 +63,11 @@ class DrillFeed:
         self.pipeline = pipeline
         self.outcomes: list[Outcome] = []
 
+    @property
+    def source(self) -> Any:
+        """The input the wrapped pipeline reads (the display loop asks whether it is live)."""
+        return getattr(self.pipeline, "source", None)
+
     def start(self) -> "DrillFeed":
         self.pipeline.start()
         return self

@@ -100,11 +100,8 @@ LIVE_LIMIT_GRACE_S = 1.0
 
 
 def _live_input(pipeline: Any) -> bool:
-    """Whether ``pipeline`` (or the pipeline it wraps) reads a live device."""
-    src = getattr(pipeline, "source", None)
-    if src is None:
-        src = getattr(getattr(pipeline, "pipeline", None), "source", None)
-    return bool(getattr(src, "live", False))
+    """Whether ``pipeline`` reads a live device (its ``source.live``)."""
+    return bool(getattr(getattr(pipeline, "source", None), "live", False))
 
 
 class Stopped(KeyboardInterrupt):
